@@ -1,0 +1,66 @@
+"""zwitter: how biomolecules carry charge in water.
+
+For a peptide or protein sequence, zwitter finds the ionizable groups, assigns their pKa values
+from a published scale and computes at any pH the populations of protonation forms, the dominant
+form, the average net charge, the macroscopic pKa values and the isoelectric point.
+
+>>> import zwitter
+>>> m = zwitter.from_sequence("MKWVTFISLLFLFSSAYS")
+>>> round(m.charge(7.4), 1)
+0.9
+"""
+
+from __future__ import annotations
+
+from importlib.metadata import PackageNotFoundError, version
+
+from .equilibrium import DominantForm
+from .errors import (
+    BufferLookupError,
+    ConditionsError,
+    InputFileError,
+    ParameterError,
+    ProFormaError,
+    RecipeError,
+    ScaleError,
+    SequenceError,
+    StructureError,
+    ZwitterError,
+    ZwitterWarning,
+)
+from .molecule import Molecule
+from .scales import DEFAULT_SCALE, Scale, get_scale, list_scales, load_scale_file, scale_names
+from .sequence import from_sequence
+from .sites import Site, SiteSet, permanent_charge
+
+try:
+    __version__ = version("zwitter")
+except PackageNotFoundError:  # pragma: no cover - running from a source tree
+    __version__ = "0.0.0"
+
+__all__ = [
+    "__version__",
+    "DEFAULT_SCALE",
+    "DominantForm",
+    "Molecule",
+    "Scale",
+    "Site",
+    "SiteSet",
+    "from_sequence",
+    "get_scale",
+    "list_scales",
+    "load_scale_file",
+    "permanent_charge",
+    "scale_names",
+    "BufferLookupError",
+    "ConditionsError",
+    "InputFileError",
+    "ParameterError",
+    "ProFormaError",
+    "RecipeError",
+    "ScaleError",
+    "SequenceError",
+    "StructureError",
+    "ZwitterError",
+    "ZwitterWarning",
+]

@@ -1,0 +1,374 @@
+"""Plain one-letter sequences -> titratable sites (composition counts).
+
+Policy for the one-letter alphabet (documented in README):
+
+* the 20 standard residues, U (selenocysteine, selenol side chain) and O (pyrrolysine, whose
+  side-chain amine is acylated in the ring, so it adds no site);
+* upper or lower case; whitespace and line breaks are ignored; one ``*`` (stop) may end it;
+* ambiguous residues: B (D or N) counts half an Asp side chain, Z (E or Q) half a Glu side
+  chain, J (I or L) has no ionizable side chain, X (unknown) contributes no site and raises a
+  :class:`~zwitter.errors.ZwitterWarning`;
+* anything else is a :class:`~zwitter.errors.SequenceError` naming the character and its 1-based
+  position among the residues (whitespace not counted).
+
+Scoring a batch is matrix work: all sequences of a chunk are joined into one byte array, counted
+with one ``bincount`` into an N x 256 letter matrix, and multiplied by a 256 x K letter-to-site
+matrix; terminal groups are placed with index arithmetic. There is no Python loop over residues
+and none over sequences.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+import numpy.typing as npt
+
+from .errors import SequenceError
+from .scales import GROUPS, SIDE_CHAIN_GROUPS, Scale
+from .sites import SiteSet
+
+if TYPE_CHECKING:
+    from .molecule import Molecule
+
+__all__ = [
+    "SiteLayout",
+    "Composition",
+    "layout_for",
+    "compose",
+    "clean_sequence",
+    "sites_for_sequence",
+    "from_sequence",
+]
+
+STANDARD = "ACDEFGHIKLMNPQRSTVWY"
+VALID = STANDARD + "UOBZJX"
+_WHITESPACE = b" \t\r\n\v\f"
+_SEP = 0  # byte joining the sequences of a chunk (NUL never occurs in a valid sequence)
+
+_UPPER = np.arange(256, dtype=np.uint8)
+_UPPER[ord("a") : ord("z") + 1] -= 32
+_VALID = np.zeros(256, dtype=bool)
+_VALID[[ord(c) for c in VALID]] = True
+
+
+@dataclass(frozen=True)
+class SiteLayout:
+    """The site columns a scale gives to polypeptides, and the maps from letters to columns."""
+
+    scale: Scale
+    sites: SiteSet  # template: one row per column, counts all zero
+    letter_weights: npt.NDArray[np.float64]  # (256, K)
+    nterm_col: npt.NDArray[np.int64]  # (256,) column of the alpha-amino group by N-terminal letter
+    cterm_col: npt.NDArray[np.int64]  # (256,)
+    side_col: npt.NDArray[np.int64]  # (256,) column of the letter's side chain, -1 if none
+    side_nterm_col: npt.NDArray[np.int64]  # (256,) side-chain column when N-terminal, -1 if none
+    side_cterm_col: npt.NDArray[np.int64]  # (256,)
+    has_u: bool
+
+
+def _label(group: str, context: str) -> str:
+    return f"{group}({context})" if context else group
+
+
+def layout_for(scale: Scale) -> SiteLayout:
+    """Site columns for ``scale`` (cached on the scale object's identity)."""
+    cached = _LAYOUTS.get(id(scale))
+    if cached is not None and cached.scale is scale:
+        return cached
+    columns: list[tuple[str, str, float]] = []
+    for group in ("Nterm", "Cterm"):
+        columns.append((group, "", scale.pka[group]))
+        table = scale.nterm if group == "Nterm" else scale.cterm
+        columns.extend((group, res, value) for res, value in sorted(table.items()))
+    for group in SIDE_CHAIN_GROUPS:
+        if group in scale.pka:
+            columns.append((group, "", scale.pka[group]))
+    for context, table in (("Nterm", scale.side_nterm), ("Cterm", scale.side_cterm)):
+        columns.extend((group, context, value) for group, value in sorted(table.items()))
+    index = {(g, c): i for i, (g, c, _) in enumerate(columns)}
+    k = len(columns)
+    template = SiteSet(
+        labels=tuple(_label(g, c) for g, c, _ in columns),
+        pkas=np.array([[v] for _, _, v in columns], dtype=float),
+        nsteps=np.ones(k, dtype=np.int64),
+        charges=np.array([GROUPS[g][0] for g, _, _ in columns], dtype=float),
+        counts=np.zeros(k),
+        sources=tuple(scale.source_of(g, c) for g, c, _ in columns),
+        groups=tuple(g for g, _, _ in columns),
+    )
+    weights = np.zeros((256, k))
+    side = np.full(256, -1, dtype=np.int64)
+    for group in SIDE_CHAIN_GROUPS:
+        if (group, "") in index:
+            col = index[(group, "")]
+            for letter in (group, group.lower()):
+                weights[ord(letter), col] = 1.0
+                side[ord(letter)] = col
+    # B = Asp or Asn, Z = Glu or Gln: half a carboxyl each (policy in the module docstring).
+    for amb, group in (("B", "D"), ("Z", "E")):
+        for letter in (amb, amb.lower()):
+            weights[ord(letter), index[(group, "")]] = 0.5
+    nterm = np.full(256, index[("Nterm", "")], dtype=np.int64)
+    cterm = np.full(256, index[("Cterm", "")], dtype=np.int64)
+    side_n = np.full(256, -1, dtype=np.int64)
+    side_c = np.full(256, -1, dtype=np.int64)
+    for (group, context), col in index.items():
+        for letter in (context, context.lower()) if len(context) == 1 else ():
+            (nterm if group == "Nterm" else cterm)[ord(letter)] = col
+        if context in ("Nterm", "Cterm"):
+            for letter in (group, group.lower()):
+                (side_n if context == "Nterm" else side_c)[ord(letter)] = col
+    layout = SiteLayout(scale, template, weights, nterm, cterm, side, side_n, side_c, "U" in scale.pka)
+    _LAYOUTS[id(scale)] = layout
+    return layout
+
+
+_LAYOUTS: dict[int, SiteLayout] = {}
+
+
+@dataclass(frozen=True)
+class Composition:
+    """Site counts of a chunk of sequences.
+
+    ``counts`` is (N, K) over ``layout.sites``; rows with an error are all zero and ``errors[i]``
+    holds the :class:`SequenceError`. ``unknown`` counts X residues per row (no site, warned).
+    """
+
+    layout: SiteLayout
+    counts: npt.NDArray[np.float64]
+    lengths: npt.NDArray[np.int64]
+    errors: tuple[SequenceError | None, ...]
+    unknown: npt.NDArray[np.int64]
+    letters: npt.NDArray[np.int64]  # (N, 256) residue letter counts (upper case), for masses etc.
+
+    @property
+    def sites(self) -> SiteSet:
+        return self.layout.sites.with_counts(self.counts)
+
+    def warnings_for(self, i: int) -> list[str]:
+        out = []
+        if self.unknown[i]:
+            n = int(self.unknown[i])
+            out.append(f"{n} unknown residue{'s' if n > 1 else ''} (X) contribute no site")
+        return out
+
+
+def _real_char(text: str, cleaned_pos: int) -> str:
+    """The character at 1-based position ``cleaned_pos`` of ``text`` with whitespace removed."""
+    count = 0
+    for ch in text:
+        if ch in " \t\r\n\v\f":
+            continue
+        count += 1
+        if count == cleaned_pos:
+            return ch
+    return ""
+
+
+def compose(sequences: Sequence[str], scale: Scale, records: Sequence[str] | None = None) -> Composition:
+    """Count the sites of many sequences in one vectorised pass (see module docstring)."""
+    layout = layout_for(scale)
+    n = len(sequences)
+    k = layout.sites.n_types
+    if n == 0:
+        z = np.zeros((0,), dtype=np.int64)
+        return Composition(layout, np.zeros((0, k)), z, (), z, np.zeros((0, 256), dtype=np.int64))
+    joined = "\x00".join(sequences)
+    data = joined.encode("utf-8", errors="surrogatepass").translate(None, _WHITESPACE)
+    raw = np.frombuffer(data, dtype=np.uint8)
+    is_sep = raw == _SEP
+    if int(is_sep.sum()) != n - 1:
+        # A NUL inside a sequence would shift rows: score such a chunk one sequence at a time.
+        parts = [compose([s], scale, [records[i] if records else ""]) for i, s in enumerate(sequences)]
+        return Composition(
+            layout,
+            np.vstack([p.counts for p in parts]),
+            np.concatenate([p.lengths for p in parts]),
+            tuple(e for p in parts for e in p.errors),
+            np.concatenate([p.unknown for p in parts]),
+            np.vstack([p.letters for p in parts]),
+        )
+    codes = _UPPER[raw]
+    row = np.cumsum(is_sep)  # row of every byte (separators belong to the next row; masked below)
+    seps = np.flatnonzero(is_sep)
+    starts = np.concatenate([[0], seps + 1])
+    ends = np.concatenate([seps, [raw.size]])  # exclusive
+    # A final '*' (stop) is dropped; a '*' anywhere else is an error.
+    star_end = (ends > starts) & (codes[np.maximum(ends - 1, 0)] == ord("*"))
+    ends = ends - star_end
+    keep = ~is_sep
+    keep[(ends - 1)[star_end]] = False
+    lengths = (ends - starts).astype(np.int64)
+    bad = keep & ~_VALID[codes]
+    errors: list[SequenceError | None] = [None] * n
+    bad_idx = np.flatnonzero(bad)
+    if bad_idx.size:
+        bad_rows, first = np.unique(row[bad_idx], return_index=True)
+        for r, b in zip(bad_rows.tolist(), bad_idx[first].tolist()):
+            pos = b - int(starts[r]) + 1
+            ch = _real_char(sequences[r], pos) or chr(raw[b])
+            reason = "'*' (stop) is allowed only at the end" if ch == "*" else "invalid residue"
+            errors[r] = SequenceError(reason, pos, ch, records[r] if records else "")
+    for r in np.flatnonzero(lengths == 0).tolist():
+        errors[r] = SequenceError("empty sequence", 0, "", records[r] if records else "")
+    if not layout.has_u:
+        u_idx = np.flatnonzero(keep & (codes == ord("U")))
+        if u_idx.size:
+            u_rows, first = np.unique(row[u_idx], return_index=True)
+            for r, b in zip(u_rows.tolist(), u_idx[first].tolist()):
+                if errors[r] is None:
+                    errors[r] = SequenceError(
+                        f"scale {scale.key!r} gives no selenocysteine (U) pKa; choose a scale "
+                        "with U or pass a scale file with a U row",
+                        b - int(starts[r]) + 1,
+                        "U",
+                        records[r] if records else "",
+                    )
+    letters = np.bincount(row[keep] * 256 + codes[keep], minlength=n * 256).reshape(n, 256)
+    counts = letters @ layout.letter_weights
+    nonempty = lengths > 0
+    rows_ne = np.flatnonzero(nonempty)
+    first_code = codes[starts[rows_ne]]
+    last_code = codes[ends[rows_ne] - 1]
+    counts[rows_ne, layout.nterm_col[first_code]] += 1.0
+    counts[rows_ne, layout.cterm_col[last_code]] += 1.0
+    for side_map, code in ((layout.side_cterm_col, last_code), (layout.side_nterm_col, first_code)):
+        col = side_map[code]
+        hit = col >= 0
+        if side_map is layout.side_nterm_col:
+            # a one-residue chain keeps its C-terminal context only
+            hit &= ~((lengths[rows_ne] == 1) & (layout.side_cterm_col[code] >= 0))
+        r = rows_ne[hit]
+        counts[r, layout.side_col[code[hit]]] -= 1.0
+        counts[r, col[hit]] += 1.0
+    failed = np.array([e is not None for e in errors])
+    counts[failed] = 0.0
+    unknown = letters[:, ord("X")].astype(np.int64)
+    return Composition(layout, counts, lengths, tuple(errors), unknown, letters)
+
+
+def clean_sequence(text: str) -> str:
+    """Upper-case residues with whitespace and a final ``*`` removed; raises on bad letters.
+
+    >>> clean_sequence("mkw vt*")
+    'MKWVT'
+    """
+    if not isinstance(text, str):
+        raise SequenceError(f"a sequence must be a string, got {type(text).__name__}")
+    cleaned = text.translate({ord(c): None for c in " \t\r\n\v\f"}).upper()
+    if cleaned.endswith("*"):
+        cleaned = cleaned[:-1]
+    if not cleaned:
+        raise SequenceError("empty sequence")
+    for i, ch in enumerate(cleaned, start=1):
+        if ch not in VALID:
+            if ch == "*":
+                raise SequenceError("'*' (stop) is allowed only at the end", i, ch)
+            raise SequenceError("invalid residue", i, ch)
+    return cleaned
+
+
+def sites_for_sequence(text: str, scale: Scale, record: str = "") -> tuple[SiteSet, list[str]]:
+    """One sequence -> (SiteSet with residue positions as members, warnings)."""
+    comp = compose([text], scale, [record] if record else None)
+    err = comp.errors[0]
+    if err is not None:
+        raise err
+    seq = clean_sequence(text)
+    layout = comp.layout
+    codes = np.frombuffer(seq.encode("ascii"), dtype=np.uint8)
+    col_of = layout.side_col[codes].copy()
+    if seq:
+        if layout.side_nterm_col[codes[0]] >= 0 and not (
+            len(seq) == 1 and layout.side_cterm_col[codes[0]] >= 0
+        ):
+            col_of[0] = layout.side_nterm_col[codes[0]]
+        if layout.side_cterm_col[codes[-1]] >= 0:
+            col_of[-1] = layout.side_cterm_col[codes[-1]]
+    members: list[tuple[str, ...]] = []
+    nterm_col = int(layout.nterm_col[codes[0]])
+    cterm_col = int(layout.cterm_col[codes[-1]])
+    for k in range(layout.sites.n_types):
+        names = [f"{seq[i]}{i + 1}" for i in np.flatnonzero(col_of == k).tolist()]
+        if k == nterm_col:
+            names.insert(0, f"N-term {seq[0]}1")
+        if k == cterm_col:
+            names.append(f"C-term {seq[-1]}{len(seq)}")
+        members.append(tuple(names))
+    base = layout.sites
+    full = SiteSet(
+        base.labels, base.pkas, base.nsteps, base.charges, comp.counts[0], base.sources,
+        base.groups, tuple(members), base.atoms,
+    )  # fmt: skip
+    return full.compact(), comp.warnings_for(0)
+
+
+CYS_MODES = ("free", "bonded")
+
+
+def check_cys(cys: str, where: str) -> str:
+    """Validate the cysteine policy: ``free`` thiols or all ``bonded`` in disulfides."""
+    from .errors import ParameterError
+
+    if cys not in CYS_MODES:
+        raise ParameterError("cys", where, "'free' or 'bonded'", cys)
+    return cys
+
+
+def bond_all_cysteines(sites: SiteSet) -> tuple[SiteSet, tuple[str, ...]]:
+    """Remove every Cys thiol (all cysteines taken as disulfide-bonded); returns the bonded names."""
+    keep = [k for k in range(sites.n_types) if sites.groups[k] != "C"]
+    bonded = tuple(m for k in range(sites.n_types) if sites.groups[k] == "C" for m in sites.members[k])
+    return sites.take(keep), bonded
+
+
+def from_sequence(
+    sequence: str,
+    scale: str | Scale | None = None,
+    *,
+    cys: str = "free",
+    conditions: object | None = None,
+    name: str = "",
+) -> Molecule:
+    """A molecule from a plain one-letter sequence.
+
+    Parameters
+    ----------
+    sequence
+        One-letter codes (policy in the module docstring).
+    scale
+        A packaged scale key (``zwitter scales`` lists them), a path to a CSV/TOML scale file, a
+        :class:`~zwitter.scales.Scale`, or None for the default scale.
+    cys
+        ``"free"`` (default): every cysteine is a titratable thiol; ``"bonded"``: every cysteine
+        is in a disulfide and carries no site (sequence databases rarely record the bonds).
+    conditions
+        Temperature and ionic strength (:class:`zwitter.Conditions`); None for the scale's own.
+    name
+        Label for reports (defaults to the sequence itself).
+
+    Examples
+    --------
+    >>> import zwitter
+    >>> m = zwitter.from_sequence("GLSDGEWQQVLNVWGK", scale="lehninger")
+    >>> 4.0 < m.isoelectric_point() < 5.0
+    True
+    """
+    from .molecule import Molecule
+    from .scales import get_scale
+
+    check_cys(cys, "from_sequence")
+    sc = get_scale(scale)
+    sites, notes = sites_for_sequence(sequence, sc, name)
+    info: dict[str, object] = {"cys": cys}
+    if cys == "bonded":
+        sites, bonded = bond_all_cysteines(sites)
+        info["bonded_cysteines"] = bonded
+    label = name or clean_sequence(sequence)
+    return Molecule(
+        sites, name=label, kind="sequence", scale=sc.key, notes=notes, info=info,
+        conditions=conditions,
+    )  # fmt: skip
