@@ -200,13 +200,21 @@ def isoelectric_point(
             )
     iterations = max(1, math.ceil(math.log2((hi - lo) / tol)))
     a, b = lo_arr.copy(), hi_arr.copy()
+    za, zb = z_lo.copy(), z_hi.copy()
     for _ in range(iterations):
         mid = 0.5 * (a + b)
         z = _charge_rows(mid, sites)
         positive = z > 0
         a = np.where(positive, mid, a)
+        za = np.where(positive, z, za)
         b = np.where(positive, b, mid)
-    values = np.where(ok, 0.5 * (a + b), np.nan)
+        zb = np.where(positive, zb, z)
+    # The final bracket is tiny: the charge is linear across it, so interpolate (regula falsi)
+    # to land on the root far closer than the bracket width.
+    with np.errstate(invalid="ignore", divide="ignore"):
+        root = a + za * (b - a) / (za - zb)
+    root = np.where(np.isfinite(root) & (root >= a) & (root <= b), root, 0.5 * (a + b))
+    values = np.where(ok, root, np.nan)
     return PIResult(values, tuple(reasons))
 
 

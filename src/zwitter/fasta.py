@@ -77,7 +77,7 @@ def _lines(path: str | Path) -> Iterator[tuple[int, str]]:
 def read_fasta(path: str | Path) -> Iterator[Record]:
     """Yield the records of a FASTA file in order (streaming; memory independent of size).
 
-    Windows line endings are accepted. Blank lines are ignored. A '>' line with no sequence gives
+    Windows line endings are accepted. Blank lines and ';' comment lines are ignored. A '>' line with no sequence gives
     a record with an empty sequence. Text before the first header gives one record with an error.
     """
     return _parse_fasta(_lines(path), str(path))
@@ -90,6 +90,8 @@ def _parse_fasta(lines: Iterator[tuple[int, str]], source: str) -> Iterator[Reco
     orphan: list[str] = []
     orphan_line = 0
     for number, line in lines:
+        if line.startswith(";"):  # comment line of the original FASTA convention
+            continue
         if line.startswith(">"):
             if orphan:
                 yield Record(
@@ -130,9 +132,9 @@ def read_sequences(path: str | Path) -> Iterator[Record]:
     peeked: list[tuple[int, str]] = []
     for item in lines:
         peeked.append(item)
-        if item[1].strip():
+        if item[1].strip() and not item[1].startswith("#"):
             break
-    if peeked and peeked[-1][1].lstrip().startswith(">"):
+    if peeked and peeked[-1][1].lstrip().startswith((">", ";")):
         yield from _parse_fasta(itertools.chain(peeked, lines), str(path))
         return
     for number, line in itertools.chain(peeked, lines):

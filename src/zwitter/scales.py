@@ -76,7 +76,7 @@ SIDE_CHAIN_GROUPS = ("D", "E", "C", "Y", "H", "K", "R", "U")
 AMINO_ACIDS = "ACDEFGHIKLMNPQRSTVWYUO"
 
 #: The default scale, chosen by measurement on data/reference/measured_pi.csv (see README).
-DEFAULT_SCALE = "bjellqvist"
+DEFAULT_SCALE = "nozaki_tanford"
 
 
 @dataclass(frozen=True)

@@ -181,26 +181,29 @@ def compose(sequences: Sequence[str], scale: Scale, records: Sequence[str] | Non
     raw = np.frombuffer(data, dtype=np.uint8)
     is_sep = raw == _SEP
     if int(is_sep.sum()) != n - 1:
-        # A NUL inside a sequence would shift rows: score such a chunk one sequence at a time.
-        parts = [compose([s], scale, [records[i] if records else ""]) for i, s in enumerate(sequences)]
-        return Composition(
-            layout,
-            np.vstack([p.counts for p in parts]),
-            np.concatenate([p.lengths for p in parts]),
-            tuple(e for p in parts for e in p.errors),
-            np.concatenate([p.unknown for p in parts]),
-            np.vstack([p.letters for p in parts]),
+        # A NUL inside a sequence would shift rows: compose with every NUL replaced by another
+        # invalid byte (same position), then name the original character in the errors.
+        safe = compose([s.replace("\x00", "\x01") for s in sequences], scale, records)
+        named = tuple(
+            None
+            if e is None
+            else SequenceError(
+                e.reason, e.position, _real_char(sequences[i], e.position) or e.character, e.record
+            )
+            for i, e in enumerate(safe.errors)
         )
+        return Composition(layout, safe.counts, safe.lengths, named, safe.unknown, safe.letters)
     codes = _UPPER[raw]
     row = np.cumsum(is_sep)  # row of every byte (separators belong to the next row; masked below)
     seps = np.flatnonzero(is_sep)
     starts = np.concatenate([[0], seps + 1])
     ends = np.concatenate([seps, [raw.size]])  # exclusive
     # A final '*' (stop) is dropped; a '*' anywhere else is an error.
-    star_end = (ends > starts) & (codes[np.maximum(ends - 1, 0)] == ord("*"))
+    padded = np.append(codes, np.uint8(0))  # safe look-ups for empty sequences
+    star_end = (ends > starts) & (padded[np.maximum(ends - 1, 0)] == ord("*"))
     ends = ends - star_end
     keep = ~is_sep
-    keep[(ends - 1)[star_end]] = False
+    keep[ends[star_end]] = False  # the '*' itself (ends now points at it)
     lengths = (ends - starts).astype(np.int64)
     bad = keep & ~_VALID[codes]
     errors: list[SequenceError | None] = [None] * n

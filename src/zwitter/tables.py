@@ -10,6 +10,7 @@ from __future__ import annotations
 import csv
 import functools
 import io
+import re
 import sys
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -107,7 +108,11 @@ def read_toml_text(text: str, path: str) -> dict[str, Any]:
     except tomllib.TOMLDecodeError as exc:
         line = getattr(exc, "lineno", 0) or 0
         col = getattr(exc, "colno", 0) or 0
-        raise ScaleError(f"invalid TOML: {exc}", path, line, str(col) if col else "") from None
+        found = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
+        if found and not line:  # Python < 3.14 puts the position only in the message
+            line, col = int(found.group(1)), int(found.group(2))
+        message = re.sub(r"\s*\(at line \d+, column \d+\)", "", str(exc))
+        raise ScaleError(f"invalid TOML: {message}", path, line, str(col) if col else "") from None
 
 
 @functools.cache
