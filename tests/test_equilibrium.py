@@ -116,7 +116,9 @@ def test_properties_of_charge(sites: list[Site], ph: float) -> None:
     ss = SiteSet.from_sites(sites)
     z1 = float(eq.net_charge(ph, ss))
     z2 = float(eq.net_charge(ph + 0.1, ss))
-    assert z2 < z1  # strictly decreasing with pH when a titratable site exists
+    assert z2 <= z1
+    if any(abs(p - ph) < 6 for site in sites for p in site.pkas):
+        assert z2 < z1  # strictly decreasing wherever the change is resolvable in float64
     low, high = ss.charge_bounds()
     assert float(low) - 1e-9 <= z1 <= float(high) + 1e-9
     f = eq.state_fractions(ph, ss.pkas)

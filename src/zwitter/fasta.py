@@ -19,7 +19,7 @@ from typing import IO
 
 from .errors import InputFileError
 
-__all__ = ["Record", "open_text", "read_fasta", "read_sequences"]
+__all__ = ["Record", "open_text", "read_fasta", "read_sequences", "split_header"]
 
 
 @dataclass(frozen=True)
@@ -118,11 +118,24 @@ def _parse_fasta(lines: Iterator[tuple[int, str]], source: str) -> Iterator[Reco
         yield _record(header, chunks, start, source)
 
 
+def split_header(header: str) -> tuple[str, str]:
+    """(id, description) of a FASTA header line without its '>': the id ends at the first
+    whitespace (space or tab), as sequence databases write it.
+
+    >>> split_header("sp|P02769|ALBU_BOVIN Albumin OS=Bos taurus")
+    ('sp|P02769|ALBU_BOVIN', 'Albumin OS=Bos taurus')
+    """
+    parts = header.strip().split(None, 1)
+    if not parts:
+        return "", ""
+    return parts[0], parts[1].strip() if len(parts) > 1 else ""
+
+
 def _record(header: str, chunks: list[str], line: int, source: str) -> Record:
-    ident, _, description = header.partition(" ")
+    ident, description = split_header(header)
     if not ident:
         ident = f"(no id, line {line})"
-    return Record(ident, description.strip(), "".join(chunks), line, source)
+    return Record(ident, description, "".join(chunks), line, source)
 
 
 def read_sequences(path: str | Path) -> Iterator[Record]:

@@ -51,7 +51,10 @@ _SEP = 0  # byte joining the sequences of a chunk (NUL never occurs in a valid s
 _UPPER = np.arange(256, dtype=np.uint8)
 _UPPER[ord("a") : ord("z") + 1] -= 32
 _VALID = np.zeros(256, dtype=bool)
-_VALID[[ord(c) for c in VALID]] = True
+_VALID[[ord(c) for c in VALID + VALID.lower()]] = True
+# bytes that are errors wherever they occur (the separator and '*' are handled on their own)
+_INVALID = ~_VALID
+_INVALID[[_SEP, ord("*")]] = False
 
 
 @dataclass(frozen=True)
@@ -168,8 +171,42 @@ def _real_char(text: str, cleaned_pos: int) -> str:
     return ""
 
 
+#: Residues per internal block: big enough for numpy to run at full speed, small enough for the
+#: temporaries (a few bytes per residue) to stay in cache instead of faulting in fresh pages.
+BLOCK_RESIDUES = 1 << 19
+
+
 def compose(sequences: Sequence[str], scale: Scale, records: Sequence[str] | None = None) -> Composition:
-    """Count the sites of many sequences in one vectorised pass (see module docstring)."""
+    """Count the sites of many sequences in one vectorised pass (see module docstring).
+
+    Long inputs are processed in blocks of about :data:`BLOCK_RESIDUES` residues (whole
+    sequences), each block one set of array operations; the blocks are stacked.
+    """
+    n = len(sequences)
+    lengths = np.fromiter(map(len, sequences), dtype=np.int64, count=n)
+    if n > 1 and int(lengths.sum()) > 2 * BLOCK_RESIDUES:
+        block = np.cumsum(lengths) // BLOCK_RESIDUES
+        cuts = np.flatnonzero(np.diff(block)) + 1
+        bounds = [0, *cuts.tolist(), n]
+        parts = [
+            _compose_block(sequences[a:b], scale, records[a:b] if records else None)
+            for a, b in zip(bounds[:-1], bounds[1:])
+            if b > a
+        ]
+        return Composition(
+            parts[0].layout,
+            np.vstack([p.counts for p in parts]),
+            np.concatenate([p.lengths for p in parts]),
+            tuple(e for p in parts for e in p.errors),
+            np.concatenate([p.unknown for p in parts]),
+            np.vstack([p.letters for p in parts]),
+        )
+    return _compose_block(sequences, scale, records)
+
+
+def _compose_block(
+    sequences: Sequence[str], scale: Scale, records: Sequence[str] | None = None
+) -> Composition:
     layout = layout_for(scale)
     n = len(sequences)
     k = layout.sites.n_types
@@ -193,49 +230,59 @@ def compose(sequences: Sequence[str], scale: Scale, records: Sequence[str] | Non
             for i, e in enumerate(safe.errors)
         )
         return Composition(layout, safe.counts, safe.lengths, named, safe.unknown, safe.letters)
-    codes = _UPPER[raw]
-    row = np.cumsum(is_sep)  # row of every byte (separators belong to the next row; masked below)
     seps = np.flatnonzero(is_sep)
     starts = np.concatenate([[0], seps + 1])
     ends = np.concatenate([seps, [raw.size]])  # exclusive
-    # A final '*' (stop) is dropped; a '*' anywhere else is an error.
-    padded = np.append(codes, np.uint8(0))  # safe look-ups for empty sequences
-    star_end = (ends > starts) & (padded[np.maximum(ends - 1, 0)] == ord("*"))
-    ends = ends - star_end
-    keep = ~is_sep
-    keep[ends[star_end]] = False  # the '*' itself (ends now points at it)
-    lengths = (ends - starts).astype(np.int64)
-    bad = keep & ~_VALID[codes]
+    rec = (lambda r: records[r]) if records else (lambda r: "")
     errors: list[SequenceError | None] = [None] * n
-    bad_idx = np.flatnonzero(bad)
+    # A final '*' (stop) is dropped; a '*' anywhere else is an error. Stars are rare: find them all.
+    stars = np.flatnonzero(raw == ord("*"))
+    star_end = np.zeros(n, dtype=bool)
+    if stars.size:
+        star_rows = np.searchsorted(seps, stars, side="right")
+        terminal = stars == ends[star_rows] - 1
+        star_end[star_rows[terminal]] = True
+        for r, b in zip(star_rows[~terminal].tolist(), stars[~terminal].tolist()):
+            if errors[r] is None:
+                errors[r] = SequenceError(
+                    "'*' (stop) is allowed only at the end", b - int(starts[r]) + 1, "*", rec(r)
+                )
+    ends = ends - star_end
+    lengths = (ends - starts).astype(np.int64)
+    bad_idx = np.flatnonzero(_INVALID[raw])
     if bad_idx.size:
-        bad_rows, first = np.unique(row[bad_idx], return_index=True)
+        bad_rows, first = np.unique(np.searchsorted(seps, bad_idx, side="right"), return_index=True)
         for r, b in zip(bad_rows.tolist(), bad_idx[first].tolist()):
             pos = b - int(starts[r]) + 1
-            ch = _real_char(sequences[r], pos) or chr(raw[b])
-            reason = "'*' (stop) is allowed only at the end" if ch == "*" else "invalid residue"
-            errors[r] = SequenceError(reason, pos, ch, records[r] if records else "")
+            if errors[r] is None or errors[r].position > pos:  # type: ignore[union-attr]
+                ch = _real_char(sequences[r], pos) or chr(raw[b])
+                errors[r] = SequenceError("invalid residue", pos, ch, rec(r))
     for r in np.flatnonzero(lengths == 0).tolist():
-        errors[r] = SequenceError("empty sequence", 0, "", records[r] if records else "")
+        errors[r] = SequenceError("empty sequence", 0, "", rec(r))
+    # Letter counts per row: one bincount over (row << 8 | byte); separators land in column 0 of
+    # the next row and a final '*' in its own column, both with zero weight. Lower case is folded
+    # into upper case on the small N x 256 matrix instead of on every byte.
+    key = (np.cumsum(is_sep, dtype=np.int32) << 8) | raw
+    letters = np.bincount(key, minlength=n * 256).reshape(n, 256)
+    letters[:, ord("A") : ord("Z") + 1] += letters[:, ord("a") : ord("z") + 1]
+    letters[:, ord("a") : ord("z") + 1] = 0
+    letters[:, 0] = 0
+    letters[:, ord("*")] = 0
     if not layout.has_u:
-        u_idx = np.flatnonzero(keep & (codes == ord("U")))
-        if u_idx.size:
-            u_rows, first = np.unique(row[u_idx], return_index=True)
-            for r, b in zip(u_rows.tolist(), u_idx[first].tolist()):
-                if errors[r] is None:
-                    errors[r] = SequenceError(
-                        f"scale {scale.key!r} gives no selenocysteine (U) pKa; choose a scale "
-                        "with U or pass a scale file with a U row",
-                        b - int(starts[r]) + 1,
-                        "U",
-                        records[r] if records else "",
-                    )
-    letters = np.bincount(row[keep] * 256 + codes[keep], minlength=n * 256).reshape(n, 256)
+        for r in np.flatnonzero(letters[:, ord("U")]).tolist():
+            if errors[r] is None:
+                cleaned = sequences[r].translate({ord(c): None for c in " \t\r\n\v\f"}).upper()
+                errors[r] = SequenceError(
+                    f"scale {scale.key!r} gives no selenocysteine (U) pKa; choose a scale "
+                    "with U or pass a scale file with a U row",
+                    cleaned.find("U") + 1,
+                    "U",
+                    rec(r),
+                )
     counts = letters @ layout.letter_weights
-    nonempty = lengths > 0
-    rows_ne = np.flatnonzero(nonempty)
-    first_code = codes[starts[rows_ne]]
-    last_code = codes[ends[rows_ne] - 1]
+    rows_ne = np.flatnonzero(lengths > 0)
+    first_code = _UPPER[raw[starts[rows_ne]]]
+    last_code = _UPPER[raw[ends[rows_ne] - 1]]
     counts[rows_ne, layout.nterm_col[first_code]] += 1.0
     counts[rows_ne, layout.cterm_col[last_code]] += 1.0
     for side_map, code in ((layout.side_cterm_col, last_code), (layout.side_nterm_col, first_code)):
