@@ -25,7 +25,8 @@ from zwitter.scoring import score_sequences
 
 # Swiss-Prot amino-acid composition, percent (UniProtKB/Swiss-Prot release statistics, from memory)
 FREQ = dict(A=8.25, R=5.53, N=4.06, D=5.45, C=1.37, Q=3.93, E=6.75, G=7.07, H=2.27, I=5.96,
-            L=9.66, K=5.84, M=2.42, F=3.86, P=4.70, S=6.56, T=5.34, W=1.08, Y=2.92, V=6.87)  # fmt: skip
+            L=9.66, K=5.84, M=2.42, F=3.86, P=4.70, S=6.56, T=5.34, W=1.08, Y=2.92,
+            V=6.87)  # fmt: skip
 
 
 def generate(n: int, seed: int = 1) -> list[str]:
@@ -67,10 +68,14 @@ def main() -> None:
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     print(f"sequences: {n:,} (mean length {np.mean([len(s) for s in seqs]):.0f}), pH {ph}")
     print(f"zwitter vectorised, one call : {t_vec:8.2f} s  ({n / t_vec:,.0f} seq/s)")
-    print(f"zwitter per-sequence loop    : {t_loop:8.2f} s  ({n / t_loop:,.0f} seq/s; "
-          f"{len(sample)} timed, extrapolated)")
-    print(f"Biopython per-sequence pI    : {t_bio:8.2f} s  ({n / t_bio:,.0f} seq/s; "
-          f"{len(sample)} timed, extrapolated; pI only)")
+    print(
+        f"zwitter per-sequence loop    : {t_loop:8.2f} s  ({n / t_loop:,.0f} seq/s; "
+        f"{len(sample)} timed, extrapolated)"
+    )
+    print(
+        f"Biopython per-sequence pI    : {t_bio:8.2f} s  ({n / t_bio:,.0f} seq/s; "
+        f"{len(sample)} timed, extrapolated; pI only)"
+    )
     print(f"speed-up vs loop {t_loop / t_vec:.0f}x, vs Biopython {t_bio / t_vec:.0f}x")
     print(f"max |pI - Biopython pI| on the sample (same Bjellqvist set): {worst:.4f}")
     print(f"peak RSS: {peak:,.0f} MiB")

@@ -88,7 +88,10 @@ def test_dominant_form_glycine_zwitterion() -> None:
     dom = eq.dominant_form(7.0, glycine())
     assert dom.charge == 0.0  # the zwitterion dominates between the two pKa values
     assert dom.population > 0.99
-    assert [(lab, lost, q) for lab, lost, q, _ in dom.sites] == [("COOH", 1, -1.0), ("NH3+", 0, 1.0)]
+    assert [(lab, lost, q) for lab, lost, q, _ in dom.sites] == [
+        ("COOH", 1, -1.0),
+        ("NH3+", 0, 1.0),
+    ]
 
 
 def test_charge_state_populations_sum_and_mean() -> None:

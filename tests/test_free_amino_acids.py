@@ -29,4 +29,6 @@ def test_twenty_amino_acids_listed_pi(reference_dir) -> None:
             steps.append(row.number("pk_r"))
         charge = 2 if row["residue"] in "HKR" else 1
         mol = Molecule(SiteSet.from_sites([Site(row["residue"], tuple(sorted(steps)), charge)]))
-        assert mol.isoelectric_point() == pytest.approx(row.number("pi_listed"), abs=0.02), row["residue"]
+        assert mol.isoelectric_point() == pytest.approx(row.number("pi_listed"), abs=0.02), row[
+            "residue"
+        ]

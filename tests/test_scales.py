@@ -81,14 +81,34 @@ def test_user_csv_and_toml_agree(tmp_path: Path) -> None:
 @pytest.mark.parametrize(
     ("name", "text", "message"),
     [
-        ("bad.csv", GOOD_CSV.replace("D,,3.9", "D,,three"), r"bad.csv, line 6, column 'pka': expected a number"),
-        ("bad.csv", GOOD_CSV.replace("H,,6.5,lab", "Q,,6.5,lab"), r"line 10, column 'group': unknown group 'Q'"),
-        ("bad.csv", GOOD_CSV.replace("K,,10.5,lab", "K,,10.5"), r"line 11, column 'source': expected 4 fields"),
+        (
+            "bad.csv",
+            GOOD_CSV.replace("D,,3.9", "D,,three"),
+            r"bad.csv, line 6, column 'pka': expected a number",
+        ),
+        (
+            "bad.csv",
+            GOOD_CSV.replace("H,,6.5,lab", "Q,,6.5,lab"),
+            r"line 10, column 'group': unknown group 'Q'",
+        ),
+        (
+            "bad.csv",
+            GOOD_CSV.replace("K,,10.5,lab", "K,,10.5"),
+            r"line 11, column 'source': expected 4 fields",
+        ),
         ("bad.csv", GOOD_CSV.replace("Nterm,A,7.6", "Nterm,AB,7.6"), r"line 4, column 'context'"),
-        ("bad.csv", GOOD_CSV.replace("group,context,pka", "group,ctx,pka"), r"line 2, column 'context': missing column"),
+        (
+            "bad.csv",
+            GOOD_CSV.replace("group,context,pka", "group,ctx,pka"),
+            r"line 2, column 'context': missing column",
+        ),
         ("bad.csv", GOOD_CSV.replace("R,,12.5,lab\n", ""), r"has no pKa for R"),
         ("bad.toml", GOOD_TOML.replace("D = 3.9", "D = 3.9.1"), r"bad.toml, line 6.*invalid TOML"),
-        ("bad.toml", GOOD_TOML.replace("D = 3.9", 'D = "low"'), r"line 6, column 'D': pKa of 'D' must be a number"),
+        (
+            "bad.toml",
+            GOOD_TOML.replace("D = 3.9", 'D = "low"'),
+            r"line 6, column 'D': pKa of 'D' must be a number",
+        ),
         ("bad.txt", GOOD_CSV, r"unknown scale file type '.txt'"),
     ],
 )

@@ -59,6 +59,8 @@ def test_batch_rows_and_compact() -> None:
 def test_errors_pickle() -> None:
     err = ParameterError("ph", "charge", "a number in [-2, 16]", 17.5)
     again = pickle.loads(pickle.dumps(err))
-    assert str(again) == str(err) == (
-        "The 'ph' parameter of charge must be a number in [-2, 16]. Got 17.5 instead."
+    assert (
+        str(again)
+        == str(err)
+        == ("The 'ph' parameter of charge must be a number in [-2, 16]. Got 17.5 instead.")
     )

@@ -32,7 +32,6 @@ from .sequence import from_sequence
 from .sites import Site, SiteSet, permanent_charge
 
 
-
 def __getattr__(name: str) -> str:
     # __version__ is read from the installed metadata on first use: importlib.metadata costs
     # ~20 ms of start-up that `zwitter pi` does not need.
@@ -44,6 +43,7 @@ def __getattr__(name: str) -> str:
         except PackageNotFoundError:  # pragma: no cover - running from a source tree
             return "0.0.0"
     raise AttributeError(f"module 'zwitter' has no attribute {name!r}")
+
 
 __all__ = [
     "__version__",

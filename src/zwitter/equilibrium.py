@@ -43,7 +43,8 @@ __all__ = [
 
 FloatArray = npt.NDArray[np.float64]
 
-#: pH range accepted everywhere (common practice: aqueous scale with a margin for strong acids/bases).
+#: pH range accepted everywhere (common practice: the aqueous scale with a margin for strong
+#: acids and bases).
 PH_MIN = -2.0
 PH_MAX = 16.0
 _LN10 = math.log(10.0)
@@ -138,7 +139,7 @@ def net_charge(ph: npt.ArrayLike, sites: SiteSet, *, where: str = "charge") -> F
     if sites.pkas.ndim == 3:  # per-molecule pKa values
         hh = np.atleast_1d(h)
         lost = mean_protons_lost(hh[None, :, None], sites.pkas[:, None, :, :])  # (N, M, K)
-        q = np.einsum("nmk,nk->nm", sites.charges - lost, np.atleast_2d(sites.counts))
+        q: FloatArray = np.einsum("nmk,nk->nm", sites.charges - lost, np.atleast_2d(sites.counts))
         return q[:, 0] if h.ndim == 0 else q
     q = site_charges(np.atleast_1d(h), sites)  # (M, K)
     z = sites.counts @ q.T  # (M,) or (N, M)
@@ -309,7 +310,9 @@ def log_binding_polynomial(sites: SiteSet) -> FloatArray:
         for _ in range(whole):
             out = np.full(coeffs.size + s, -np.inf)
             for m in range(s + 1):
-                out[m : m + coeffs.size] = _logaddexp10(out[m : m + coeffs.size], coeffs + factor[m])
+                out[m : m + coeffs.size] = _logaddexp10(
+                    out[m : m + coeffs.size], coeffs + factor[m]
+                )
             coeffs = out
     if rounded:
         warnings.warn(

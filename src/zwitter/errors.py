@@ -1,9 +1,9 @@
 """Errors and warnings raised by zwitter.
 
-Every error derives from :class:`ZwitterError` and from the builtin it resembles, keeps the offending
-data in attributes, builds its message in ``__str__`` and pickles (batch work crosses processes):
-each ``__init__`` passes its arguments, in order, to ``Exception.__init__`` so that the default
-pickling protocol can rebuild it.
+Every error derives from :class:`ZwitterError` and from the builtin it resembles, keeps the
+offending data in attributes, builds its message in ``__str__`` and pickles (batch work crosses
+processes): each ``__init__`` passes its arguments, in order, to ``Exception.__init__`` so that
+the default pickling protocol can rebuild it.
 """
 
 from __future__ import annotations
@@ -48,7 +48,10 @@ class ParameterError(ZwitterError, ValueError):
 
     def __str__(self) -> str:
         got = self.got if isinstance(self.got, str) and self.got.startswith("<") else repr(self.got)
-        msg = f"The {self.parameter!r} parameter of {self.where} must be {self.allowed}. Got {got} instead."
+        msg = (
+            f"The {self.parameter!r} parameter of {self.where} must be {self.allowed}. "
+            f"Got {got} instead."
+        )
         return f"{msg} {self.hint}" if self.hint else msg
 
 

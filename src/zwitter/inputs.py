@@ -30,7 +30,9 @@ _PROFORMA_HINT = re.compile(
 )
 
 
-_SMILES_ATOM = re.compile(r"^\d*[A-Z][a-z]?(@{1,2})?(H\d*)?([+-]\d*)*(:\d+)?$|^\d*[a-z]{1,2}([+-]\d*)?$")
+_SMILES_ATOM = re.compile(
+    r"^\d*[A-Z][a-z]?(@{1,2})?(H\d*)?([+-]\d*)*(:\d+)?$|^\d*[a-z]{1,2}([+-]\d*)?$"
+)
 
 
 def detect_kind(text: str) -> str:
@@ -41,7 +43,9 @@ def detect_kind(text: str) -> str:
     if any(_SMILES_ATOM.match(inner) for inner in re.findall(r"\[([^\]]*)\]", stripped)):
         return "smiles"
     letters_outside = re.sub(r"\[[^\]]*\]|<[^>]*>|\{[^}]*\}|\([^)]*\)", "", stripped)
-    if _PROFORMA_HINT.search(stripped) and not re.search(r"[a-z0-9=#@+\\/]", _plain(letters_outside)):
+    if _PROFORMA_HINT.search(stripped) and not re.search(
+        r"[a-z0-9=#@+\\/]", _plain(letters_outside)
+    ):
         return "proforma"
     return "smiles"
 
@@ -70,8 +74,10 @@ def molecule_from_text(text: str, kind: str = "auto", **options: Any) -> Molecul
     if kind == "proforma":
         from .proforma import from_proforma
 
-        return from_proforma(text, **options)
+        peptide: Molecule = from_proforma(text, **options)
+        return peptide
     from .structure import from_smiles
 
     structure_options = {k: v for k, v in options.items() if k not in ("scale", "cys")}
-    return from_smiles(text, **structure_options)
+    molecule: Molecule = from_smiles(text, **structure_options)
+    return molecule

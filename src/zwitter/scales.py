@@ -253,11 +253,15 @@ def _scale_from_toml(key: str, data: Mapping[str, Any], text: str, path: str) ->
     for table, group_for in tables.items():
         entries = data.get(table, {})
         if not isinstance(entries, dict):
-            raise ScaleError(f"[{table}] must be a table of name = pKa", path, _line_of(text, table))
+            raise ScaleError(
+                f"[{table}] must be a table of name = pKa", path, _line_of(text, table)
+            )
         for name, value in entries.items():
             line = _line_of(text, name)
             if not isinstance(value, (int, float)) or isinstance(value, bool):
-                raise ScaleError(f"pKa of {name!r} must be a number, got {value!r}", path, line, name)
+                raise ScaleError(
+                    f"pKa of {name!r} must be a number, got {value!r}", path, line, name
+                )
             if table == "pka":
                 values = {"group": name, "context": ""}
             elif table in ("nterm", "cterm"):

@@ -254,7 +254,8 @@ def _compose_block(
         bad_rows, first = np.unique(np.searchsorted(seps, bad_idx, side="right"), return_index=True)
         for r, b in zip(bad_rows.tolist(), bad_idx[first].tolist()):
             pos = b - int(starts[r]) + 1
-            if errors[r] is None or errors[r].position > pos:  # type: ignore[union-attr]
+            earlier = errors[r]
+            if earlier is None or earlier.position > pos:
                 ch = _real_char(sequences[r], pos) or chr(raw[b])
                 errors[r] = SequenceError("invalid residue", pos, ch, rec(r))
     for r in np.flatnonzero(lengths == 0).tolist():

@@ -25,7 +25,14 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover - exercised on Python 3.10 only
     import tomli as tomllib
 
-__all__ = ["Row", "read_csv_text", "packaged_text", "packaged_csv", "packaged_toml", "read_toml_text"]
+__all__ = [
+    "Row",
+    "read_csv_text",
+    "packaged_text",
+    "packaged_csv",
+    "packaged_toml",
+    "read_toml_text",
+]
 
 
 @dataclass(frozen=True)
@@ -49,11 +56,14 @@ class Row:
         try:
             return float(raw)
         except (TypeError, ValueError):
-            raise _make_error(error, f"expected a number, got {raw!r}", self.path, self.line, key)
-        # unreachable
+            raise _make_error(
+                error, f"expected a number, got {raw!r}", self.path, self.line, key
+            ) from None
 
 
-def _make_error(error: type[Exception], reason: str, path: str, line: int, column: str) -> Exception:
+def _make_error(
+    error: type[Exception], reason: str, path: str, line: int, column: str
+) -> Exception:
     if error is ScaleError:
         return ScaleError(reason, path, line, column)
     return error(f"{path}, line {line}, column {column!r}: {reason}")

@@ -69,5 +69,6 @@ def scale_errors(
     n = len(diffs)
     rmsd = math.sqrt(sum(d * d for d in diffs) / n) if n else math.nan
     mae = sum(abs(d) for d in diffs) / n if n else math.nan
-    return ScaleError_(sc.key, n, rmsd, mae, max((abs(d) for d in diffs), default=math.nan),
-                       tuple(residuals))
+    return ScaleError_(
+        sc.key, n, rmsd, mae, max((abs(d) for d in diffs), default=math.nan), tuple(residuals)
+    )

@@ -50,8 +50,9 @@ def emit(
         return
     if fmt in (OutputFormat.csv, OutputFormat.tsv):
         buf = io.StringIO()
-        writer = csv.writer(buf, delimiter="," if fmt is OutputFormat.csv else "\t",
-                            lineterminator="\n")
+        writer = csv.writer(
+            buf, delimiter="," if fmt is OutputFormat.csv else "\t", lineterminator="\n"
+        )
         writer.writerow(columns)
         for r in rows:
             writer.writerow(["" if r[c] is None else r[c] for c in columns])
@@ -60,8 +61,9 @@ def emit(
     from rich.console import Console
     from rich.table import Table
 
-    table = Table(title=title or None, caption=caption or None, header_style="bold",
-                  caption_justify="left")
+    table = Table(
+        title=title or None, caption=caption or None, header_style="bold", caption_justify="left"
+    )
     for c in columns:
         numeric = any(isinstance(r[c], (int, float)) and not isinstance(r[c], bool) for r in rows)
         table.add_column(c, justify="right" if numeric else "left", overflow="fold")

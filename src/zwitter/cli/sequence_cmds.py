@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
-from typing import Annotated, Any, Optional
+from typing import Annotated, Any
 
 import typer
 
@@ -13,21 +13,27 @@ from ._app import EXIT_BAD_INPUT, app, fail
 from ._output import CAUTION, OutputFormat, emit
 
 ScaleOpt = Annotated[
-    Optional[str],
-    typer.Option("--scale", "-s", help="pKa scale: a name from `zwitter scales` or a .csv/.toml file."),
+    str | None,
+    typer.Option(
+        "--scale", "-s", help="pKa scale: a name from `zwitter scales` or a .csv/.toml file."
+    ),
 ]
 FormatOpt = Annotated[
-    OutputFormat, typer.Option("--format", "-f", help="Output format: table for people, csv/tsv/json.")
+    OutputFormat,
+    typer.Option("--format", "-f", help="Output format: table for people, csv/tsv/json."),
 ]
 InputOpt = Annotated[
-    Optional[Path],
+    Path | None,
     typer.Option(
-        "--input", "-i", help="Read sequences from a FASTA file or one per line ('-' = stdin).",
+        "--input",
+        "-i",
+        help="Read sequences from a FASTA file or one per line ('-' = stdin).",
         dir_okay=False,
     ),
 ]
-SeqArgs = Annotated[Optional[list[str]], typer.Argument(help="Sequences (one-letter codes).",
-                                                        show_default=False)]
+SeqArgs = Annotated[
+    list[str] | None, typer.Argument(help="Sequences (one-letter codes).", show_default=False)
+]
 
 
 def _records(seqs: list[str] | None, input_file: Path | None) -> list[tuple[str, str]]:
@@ -54,7 +60,9 @@ def _scale(scale: str | None) -> Any:
         fail(str(exc))
 
 
-def _score(items: list[tuple[str, str]], ph: list[float], scale: Any) -> tuple[list[dict[str, Any]], int]:
+def _score(
+    items: list[tuple[str, str]], ph: list[float], scale: Any
+) -> tuple[list[dict[str, Any]], int]:
     from ..scoring import score_sequences
 
     try:
@@ -158,13 +166,17 @@ def forms(
         return
     emit(site_rows, fmt, title=f"Sites at pH {ph:g} (scale {mol.scale})")
     if fmt is OutputFormat.table:
-        emit(state_rows, fmt, title=f"Charge states at pH {ph:g}; mean charge {dom.mean_charge:+.3f}",
-             caption=CAUTION)
+        emit(
+            state_rows,
+            fmt,
+            title=f"Charge states at pH {ph:g}; mean charge {dom.mean_charge:+.3f}",
+            caption=CAUTION,
+        )
 
 
 @app.command()
 def scales(
-    key: Annotated[Optional[str], typer.Argument(help="Show the values of one scale.")] = None,
+    key: Annotated[str | None, typer.Argument(help="Show the values of one scale.")] = None,
     fmt: FormatOpt = OutputFormat.table,
 ) -> None:
     """List the packaged pKa scales and their sources (or the values of one scale)."""
@@ -182,7 +194,9 @@ def scales(
         sc = get_scale(key)
     except ZwitterError as exc:
         fail(str(exc))
-    rows = [{"group": g, "context": "", "pKa": v, "source": sc.source_of(g)} for g, v in sc.pka.items()]
+    rows = [
+        {"group": g, "context": "", "pKa": v, "source": sc.source_of(g)} for g, v in sc.pka.items()
+    ]
     for label, table, group in (("Nterm", sc.nterm, "Nterm"), ("Cterm", sc.cterm, "Cterm")):
         rows += [{"group": group, "context": f"{label} residue {r}", "pKa": v,
                   "source": sc.source_of(group, r)} for r, v in table.items()]  # fmt: skip
@@ -195,7 +209,8 @@ def scales(
 @app.command()
 def demo(
     out: Annotated[
-        Path, typer.Option("--out", "-o", help="Folder for the demo's output files.", file_okay=False)
+        Path,
+        typer.Option("--out", "-o", help="Folder for the demo's output files.", file_okay=False),
     ] = Path("zwitter-demo"),
     fmt: FormatOpt = OutputFormat.table,
 ) -> None:
@@ -214,8 +229,11 @@ def demo(
     scores = score_sequences([r.sequence for r in records], ph, sc, [r.id for r in records])
     rows: list[dict[str, Any]] = []
     for i, rec in enumerate(records):
-        row: dict[str, Any] = {"id": rec.id, "length": int(scores.composition.lengths[i]),
-                               "pI": float(scores.pi[i])}
+        row: dict[str, Any] = {
+            "id": rec.id,
+            "length": int(scores.composition.lengths[i]),
+            "pI": float(scores.pi[i]),
+        }
         for j, p in enumerate(ph):
             row[f"charge@pH{p:g}"] = float(scores.charge[i, j])
         row["description"] = rec.description
@@ -226,9 +244,11 @@ def demo(
             "Demo (invented scenario): the fictional Marsh Lab purifies 'marinase', a His-tagged\n"
             "nuclease, from a host-cell extract. Which proteins carry which charge?\n\n"
         )
-    shown = rows if fmt is not OutputFormat.table else [
-        {k: v for k, v in r.items() if k != "description"} for r in rows
-    ]
+    shown = (
+        rows
+        if fmt is not OutputFormat.table
+        else [{k: v for k, v in r.items() if k != "description"} for r in rows]
+    )
     emit(shown, fmt, title=f"Demo extract, ordered by pI (scale {sc.key})", caption=CAUTION)
     out.mkdir(parents=True, exist_ok=True)
     target = out / "demo_scores.csv"
