@@ -10,7 +10,7 @@ import typer
 
 from ..errors import ZwitterError
 from ._app import EXIT_BAD_INPUT, app, fail
-from ._output import CAUTION, OutputFormat, emit
+from ._output import CAUTION, OutputFormat, emit, rounded
 
 ScaleOpt = Annotated[
     str | None,
@@ -160,7 +160,9 @@ def forms(
             "sequence": mol.name, "ph": ph, "scale": mol.scale,
             "mean_charge": round(dom.mean_charge, 3),
             "dominant_charge_state": {"charge": dom.charge, "population": round(dom.population, 3)},
-            "sites": site_rows, "charge_states": state_rows, "caution": CAUTION,
+            "sites": [{k: rounded(v) for k, v in r.items()} for r in site_rows],
+            "charge_states": [{k: rounded(v) for k, v in r.items()} for r in state_rows],
+            "caution": CAUTION,
         }  # fmt: skip
         sys.stdout.write(json.dumps(doc, indent=2) + "\n")
         return
@@ -185,10 +187,12 @@ def scales(
     if key is None:
         rows = [
             {"scale": s.key + (" (default)" if s.key == DEFAULT_SCALE else ""), "kind": s.kind,
-             "terminus_specific": "yes" if s.terminus_specific else "no", "source": s.citation}
+             "terminus_specific": "yes" if s.terminus_specific else "no",
+             "title": s.title} | ({"citation": s.citation} if fmt is not OutputFormat.table else {})
             for s in list_scales()
         ]  # fmt: skip
-        emit(rows, fmt, title="Packaged pKa scales")
+        emit(rows, fmt, title="Packaged pKa scales",
+             caption="`zwitter scales KEY` shows one scale's values with the source of each.")
         return
     try:
         sc = get_scale(key)
