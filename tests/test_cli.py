@@ -68,9 +68,30 @@ def test_forms_reports_dominant_state() -> None:
     res = run("forms", "DKHK", "--ph", "7", "-f", "json")
     assert res.exit_code == 0, res.output
     doc = json.loads(res.stdout)
-    states = {s["site"]: s["dominant_state"] for s in doc["sites"]}
-    assert states["K"] == "protonated" and states["D"] == "lost 1 H+"
+    states = {g["group"]: g["state"] for g in doc["groups"]}
+    assert states["K2"] == "protonated" and states["D1"] == "deprotonated"
+    assert doc["forms"][0]["rank"] == 1
+    assert sum(f["population"] for f in doc["forms"]) <= 1.0 + 1e-3
     assert "verify experimentally" in doc["caution"]
+
+
+def test_forms_reports_bonded_cysteines_and_proforma() -> None:
+    res = run("forms", "[Acetyl]-C[#XL1]KAC[#XL1]E", "--ph", "7", "-f", "json")
+    assert res.exit_code == 0, res.output
+    doc = json.loads(res.stdout)
+    assert doc["kind"] == "proforma" and doc["bonded_cysteines"] == ["C1", "C4"]
+    assert not any(g["group"].startswith("N-term") for g in doc["groups"])  # acetylated
+    res = run("forms", "CKAC", "--cys", "bonded", "-f", "json")
+    assert json.loads(res.stdout)["bonded_cysteines"] == ["C1", "C4"]
+
+
+def test_pi_accepts_proforma_with_the_library_numbers() -> None:
+    from zwitter.proforma import from_proforma
+
+    text = "[Acetyl]-KPEPS[Phospho]TIDEK-[Amidated]"
+    res = run("pi", text, "-f", "json")
+    assert res.exit_code == 0, res.output
+    assert json.loads(res.stdout)[0]["pI"] == round(from_proforma(text).isoelectric_point(), 3)
 
 
 @pytest.mark.parametrize(
@@ -81,7 +102,7 @@ def test_forms_reports_dominant_state() -> None:
         (["charge", "MKW", "--ph", "17"], "'ph' parameter"),
         (["charge", "MKW", "--ph", "nan"], "'ph' parameter"),
         (["pi", "MKW", "--scale", "nonesuch"], "unknown pKa scale 'nonesuch'"),
-        (["pi"], "no sequence given"),
+        (["pi"], "no input given"),
     ],
 )
 def test_bad_input_one_line_exit_2(args: list[str], needle: str) -> None:

@@ -26,7 +26,10 @@ from .errors import (
     ZwitterError,
     ZwitterWarning,
 )
+from .inputs import detect_kind, molecule_from_text
+from .modifications import list_modifications
 from .molecule import Molecule
+from .proforma import from_proforma, parse_proforma, to_proforma
 from .scales import DEFAULT_SCALE, Scale, get_scale, list_scales, load_scale_file, scale_names
 from .sequence import from_sequence
 from .sites import Site, SiteSet, permanent_charge
@@ -53,7 +56,13 @@ __all__ = [
     "Scale",
     "Site",
     "SiteSet",
+    "detect_kind",
+    "from_proforma",
     "from_sequence",
+    "list_modifications",
+    "molecule_from_text",
+    "parse_proforma",
+    "to_proforma",
     "get_scale",
     "list_scales",
     "load_scale_file",

@@ -37,7 +37,7 @@ _SMILES_ATOM = re.compile(
 
 def detect_kind(text: str) -> str:
     """``"sequence"``, ``"proforma"`` or ``"smiles"`` for a text (see module docstring)."""
-    if _SEQUENCE.match(text):
+    if not text.strip() or _SEQUENCE.match(text):
         return "sequence"
     stripped = text.strip()
     if any(_SMILES_ATOM.match(inner) for inner in re.findall(r"\[([^\]]*)\]", stripped)):
@@ -53,7 +53,7 @@ def detect_kind(text: str) -> str:
 def _plain(text: str) -> str:
     # Drop what ProForma allows outside brackets besides residues: chain separators, the terminal
     # dashes next to brackets, stoichiometry prefixes.
-    text = re.sub(r"^\s*\d+x", "", text)
+    text = re.sub(r"(^|//)\s*\d+x", r"\1", text)
     return text.replace("//", "").replace("-", "")
 
 
@@ -65,7 +65,8 @@ def molecule_from_text(text: str, kind: str = "auto", **options: Any) -> Molecul
     """
     if kind not in KINDS:
         raise ParameterError("kind", "molecule_from_text", f"one of {', '.join(KINDS)}", kind)
-    if kind == "auto":
+    auto = kind == "auto"
+    if auto:
         kind = detect_kind(text)
     if kind == "sequence":
         from .sequence import from_sequence
@@ -76,8 +77,24 @@ def molecule_from_text(text: str, kind: str = "auto", **options: Any) -> Molecul
 
         peptide: Molecule = from_proforma(text, **options)
         return peptide
+    from .errors import StructureError
     from .structure import from_smiles
 
     structure_options = {k: v for k, v in options.items() if k not in ("scale", "cys")}
-    molecule: Molecule = from_smiles(text, **structure_options)
+    try:
+        molecule: Molecule = from_smiles(text, **structure_options)
+    except StructureError:
+        if auto and _mostly_residues(text):
+            # "MKWV1TF" is a mistyped sequence far more often than a SMILES: say what is wrong
+            # with it as a sequence (the character and its position).
+            from .sequence import from_sequence
+
+            return from_sequence(text, **options)
+        raise
     return molecule
+
+
+def _mostly_residues(text: str) -> bool:
+    letters = [c for c in text if not c.isspace()]
+    residues = sum(c in "ACDEFGHIKLMNPQRSTVWYUOBZJX" for c in letters)
+    return bool(letters) and residues >= 0.8 * len(letters)

@@ -17,6 +17,7 @@ import numpy.typing as npt
 from . import equilibrium as eq
 from .scales import Scale
 from .sequence import Composition, compose
+from .sites import SiteSet
 
 __all__ = ["ChunkScores", "score_sequences", "score_composition"]
 
@@ -45,10 +46,20 @@ class ChunkScores:
         return out
 
 
-def score_composition(comp: Composition, ph: Sequence[float] | npt.ArrayLike) -> ChunkScores:
-    """pI and charges for a composed chunk (rows with errors get NaN)."""
+def score_composition(
+    comp: Composition, ph: Sequence[float] | npt.ArrayLike, sites: SiteSet | None = None
+) -> ChunkScores:
+    """pI and charges for a composed chunk (rows with errors get NaN).
+
+    ``sites`` replaces ``comp.sites`` for the solver when the chunk's sites were adjusted after
+    composing (cysteines taken as bonded, pKa values moved to other conditions); it must have the
+    same N rows.
+    """
     grid = np.atleast_1d(eq.check_ph(ph, "score"))
-    sites = comp.sites
+    if sites is None:
+        sites = comp.sites
+    elif sites.n_molecules != len(comp.errors):
+        raise ValueError(f"sites has {sites.n_molecules} rows; the composition has {len(comp.errors)}")
     n = sites.n_molecules
     if n == 0:
         return ChunkScores(comp, grid, np.zeros(0), np.zeros((0, grid.size)), ())

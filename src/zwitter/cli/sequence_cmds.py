@@ -10,14 +10,21 @@ import typer
 
 from ..errors import ZwitterError
 from ._app import EXIT_BAD_INPUT, app, fail
+from ._common import (
+    CysMode,
+    CysOpt,
+    InputKind,
+    IonicOpt,
+    KindOpt,
+    ScaleOpt,
+    TempOpt,
+    conditions_from,
+    get_scale_or_fail,
+    read_items,
+    score_items,
+)
 from ._output import CAUTION, OutputFormat, emit, rounded
 
-ScaleOpt = Annotated[
-    str | None,
-    typer.Option(
-        "--scale", "-s", help="pKa scale: a name from `zwitter scales` or a .csv/.toml file."
-    ),
-]
 FormatOpt = Annotated[
     OutputFormat,
     typer.Option("--format", "-f", help="Output format: table for people, csv/tsv/json."),
@@ -27,63 +34,14 @@ InputOpt = Annotated[
     typer.Option(
         "--input",
         "-i",
-        help="Read sequences from a FASTA file or one per line ('-' = stdin).",
+        help="Read inputs from a FASTA file or one per line ('-' = stdin).",
         dir_okay=False,
     ),
 ]
 SeqArgs = Annotated[
-    list[str] | None, typer.Argument(help="Sequences (one-letter codes).", show_default=False)
+    list[str] | None,
+    typer.Argument(help="Sequences, ProForma strings or SMILES.", show_default=False),
 ]
-
-
-def _records(seqs: list[str] | None, input_file: Path | None) -> list[tuple[str, str]]:
-    from ..fasta import read_sequences
-
-    items: list[tuple[str, str]] = []
-    for text in seqs or []:
-        label = text if len(text) <= 24 else text[:21] + "..."
-        items.append((label, text))
-    if input_file is not None:
-        for rec in read_sequences(input_file):
-            items.append((rec.id, rec.sequence))
-    if not items:
-        fail("no sequence given: pass sequences as arguments or --input FILE")
-    return items
-
-
-def _scale(scale: str | None) -> Any:
-    from ..scales import get_scale
-
-    try:
-        return get_scale(scale)
-    except ZwitterError as exc:
-        fail(str(exc))
-
-
-def _score(
-    items: list[tuple[str, str]], ph: list[float], scale: Any
-) -> tuple[list[dict[str, Any]], int]:
-    from ..scoring import score_sequences
-
-    try:
-        scores = score_sequences([s for _, s in items], ph, scale, [i for i, _ in items])
-    except ZwitterError as exc:
-        fail(str(exc))
-    rows = []
-    bad = 0
-    notes = scores.warnings()
-    for i, (ident, _) in enumerate(items):
-        err = scores.errors[i]
-        if err:
-            bad += 1
-            sys.stderr.write(f"zwitter: error: {err}\n")
-        row: dict[str, Any] = {"id": ident, "length": int(scores.composition.lengths[i])}
-        row["pI"] = float(scores.pi[i])
-        for j, p in enumerate(scores.ph):
-            row[f"charge@pH{p:g}"] = float(scores.charge[i, j])
-        row["note"] = err or "; ".join(notes[i])
-        rows.append(row)
-    return rows, bad
 
 
 @app.command()
@@ -91,16 +49,30 @@ def pi(
     sequences: SeqArgs = None,
     input_file: InputOpt = None,
     scale: ScaleOpt = None,
+    cys: CysOpt = CysMode.free,
+    kind: KindOpt = InputKind.auto,
+    temp: TempOpt = None,
+    ionic_strength: IonicOpt = None,
     fmt: FormatOpt = OutputFormat.table,
 ) -> None:
-    """Isoelectric point of each sequence."""
-    sc = _scale(scale)
-    rows, bad = _score(_records(sequences, input_file), [7.0], sc)
+    """Isoelectric point of each input (sequence, ProForma or SMILES)."""
+    sc = get_scale_or_fail(scale)
+    cond = conditions_from(temp, ionic_strength)
+    rows, bad = score_items(
+        read_items(sequences, input_file), [7.0], sc, cys=cys.value, kind=kind.value,
+        conditions=cond,
+    )  # fmt: skip
     for r in rows:
         r.pop("charge@pH7")
-    emit(rows, fmt, title=f"Isoelectric point (scale {sc.key})", caption=CAUTION)
+    emit(rows, fmt, title=f"Isoelectric point (scale {sc.key}{_cond_text(cond)})", caption=CAUTION)
     if bad:
         raise typer.Exit(EXIT_BAD_INPUT)
+
+
+def _cond_text(cond: Any) -> str:
+    if cond is None:
+        return ""
+    return f", {cond.temperature:g} deg C, I = {cond.ionic_strength:g} M"
 
 
 @app.command()
@@ -109,71 +81,104 @@ def charge(
     ph: Annotated[list[float], typer.Option("--ph", help="pH value; repeat for several.")] = [7.4],  # noqa: B006
     input_file: InputOpt = None,
     scale: ScaleOpt = None,
+    cys: CysOpt = CysMode.free,
+    kind: KindOpt = InputKind.auto,
+    temp: TempOpt = None,
+    ionic_strength: IonicOpt = None,
     fmt: FormatOpt = OutputFormat.table,
 ) -> None:
-    """Average net charge of each sequence at one or more pH values."""
-    sc = _scale(scale)
-    rows, bad = _score(_records(sequences, input_file), ph, sc)
-    emit(rows, fmt, title=f"Net charge (scale {sc.key})", caption=CAUTION)
+    """Average net charge of each input at one or more pH values."""
+    sc = get_scale_or_fail(scale)
+    cond = conditions_from(temp, ionic_strength)
+    rows, bad = score_items(
+        read_items(sequences, input_file), ph, sc, cys=cys.value, kind=kind.value,
+        conditions=cond,
+    )  # fmt: skip
+    emit(rows, fmt, title=f"Net charge (scale {sc.key}{_cond_text(cond)})", caption=CAUTION)
     if bad:
         raise typer.Exit(EXIT_BAD_INPUT)
 
 
 @app.command()
 def forms(
-    sequence: Annotated[str, typer.Argument(help="One sequence.")],
+    text: Annotated[str, typer.Argument(help="One sequence, ProForma string or SMILES.")],
     ph: Annotated[float, typer.Option("--ph", help="pH value.")] = 7.4,
     scale: ScaleOpt = None,
-    top: Annotated[int, typer.Option("--top", help="How many charge states to list.")] = 5,
+    cys: CysOpt = CysMode.free,
+    kind: KindOpt = InputKind.auto,
+    temp: TempOpt = None,
+    ionic_strength: IonicOpt = None,
+    top: Annotated[int, typer.Option("--top", help="How many forms to list.", min=1)] = 5,
     fmt: FormatOpt = OutputFormat.table,
 ) -> None:
-    """Dominant protonation form at a pH: per-site states and the most populated charge states."""
+    """Dominant protonation form at a pH: the state of every group and the top forms."""
     import json
 
-    from ..sequence import from_sequence
+    from ..inputs import molecule_from_text
 
+    cond = conditions_from(temp, ionic_strength)
     try:
-        mol = from_sequence(sequence, scale=_scale(scale))
+        mol = molecule_from_text(
+            text, kind.value, scale=get_scale_or_fail(scale), cys=cys.value, conditions=cond
+        )
         dom = mol.dominant(ph)
-        table = mol.site_table(ph)
-        species = mol.species(ph, top=top)
+        if hasattr(mol, "residue_states") and mol.kind in ("sequence", "proforma"):
+            groups = mol.residue_states(ph)
+            group_rows = [
+                {"group": r.member, "site": r.site, "state": r.state, "charge": float(r.charge),
+                 "population": float(r.population)}
+                for r in groups.itertuples()
+            ]  # fmt: skip
+            n_res = sum(len(c.get("sequence", "")) for c in mol.info.get("chains", [])) or len(
+                mol.name
+            )
+            if n_res <= 30:
+                micro = mol.microstates(ph, top=top)
+                form_rows = [
+                    {"rank": int(r.rank), "charge": float(r.charge),
+                     "population": float(r.population), "charged_groups": r.charged}
+                    for r in micro.itertuples()
+                ]  # fmt: skip
+                form_title = f"Most populated microstates at pH {ph:g}"
+            else:
+                species = mol.species(ph, top=top)
+                form_rows = [
+                    {"charge": float(c), "protons_bound": int(b), "population": float(p)}
+                    for c, b, p in zip(
+                        species["charge"], species["protons_bound"], species["population"]
+                    )
+                ]
+                form_title = f"Most populated charge states at pH {ph:g}"
+        else:  # structures: the molecule's own species table (microstates with SMILES)
+            table = mol.site_table(ph)
+            group_rows = table.to_dict("records")
+            form_rows = mol.species(ph).head(top).to_dict("records")
+            form_title = f"Most populated microstates at pH {ph:g}"
     except ZwitterError as exc:
         fail(str(exc))
-    site_rows = [
-        {
-            "site": lab,
-            "count": float(table["count"][i]),
-            "pKa": table["pka"][i],
-            "dominant_state": "protonated" if lost == 0 else f"lost {lost} H+",
-            "charge_per_group": q,
-            "population": pop,
-            "members": table["members"][i],
-        }
-        for i, (lab, lost, q, pop) in enumerate(dom.sites)
-    ]
-    state_rows = [
-        {"charge": float(c), "protons_bound": int(b), "population": float(p)}
-        for c, b, p in zip(species["charge"], species["protons_bound"], species["population"])
-    ]
+    bonded = list(mol.info.get("bonded_cysteines", ()))
+    facts = {
+        "input": mol.name, "kind": mol.kind, "ph": ph, "scale": mol.scale,
+        "mean_charge": rounded(dom.mean_charge), "dominant_charge": dom.charge,
+        "dominant_population": rounded(dom.population), "bonded_cysteines": bonded,
+    }  # fmt: skip
     if fmt is OutputFormat.json:
-        doc = {
-            "sequence": mol.name, "ph": ph, "scale": mol.scale,
-            "mean_charge": round(dom.mean_charge, 3),
-            "dominant_charge_state": {"charge": dom.charge, "population": round(dom.population, 3)},
-            "sites": [{k: rounded(v) for k, v in r.items()} for r in site_rows],
-            "charge_states": [{k: rounded(v) for k, v in r.items()} for r in state_rows],
-            "caution": CAUTION,
-        }  # fmt: skip
-        sys.stdout.write(json.dumps(doc, indent=2) + "\n")
+        doc = dict(facts)
+        doc["groups"] = [{k: rounded(v) for k, v in r.items()} for r in group_rows]
+        doc["forms"] = [{k: rounded(v) for k, v in r.items()} for r in form_rows]
+        doc["modifications"] = mol.info.get("modifications", [])
+        doc["disulfides"] = [list(p) for p in mol.info.get("disulfides", ())]
+        doc["caution"] = CAUTION
+        sys.stdout.write(json.dumps(doc, indent=2, default=str) + "\n")
         return
-    emit(site_rows, fmt, title=f"Sites at pH {ph:g} (scale {mol.scale})")
+    emit(group_rows, fmt, title=f"Groups at pH {ph:g} (scale {mol.scale})")
     if fmt is OutputFormat.table:
-        emit(
-            state_rows,
-            fmt,
-            title=f"Charge states at pH {ph:g}; mean charge {dom.mean_charge:+.3f}",
-            caption=CAUTION,
-        )
+        emit(form_rows, fmt, title=form_title)
+        note = f"Mean charge {dom.mean_charge:+.3f}; most populated charge state {dom.charge:+g} "
+        note += f"({dom.population:.1%})."
+        if bonded:
+            note += f" Cysteines treated as bonded: {', '.join(bonded)}."
+        sys.stdout.write(note + "\n" + CAUTION + "\n")
 
 
 @app.command()

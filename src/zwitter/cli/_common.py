@@ -1,0 +1,186 @@
+"""Options shared by the commands, and the scoring of mixed text inputs.
+
+Plain sequences are scored together in one vectorised call; ProForma and SMILES inputs are read
+one by one (``zwitter.inputs.molecule_from_text``). Rows keep the order of the inputs, and a bad
+input becomes a row with its error (and a line on stderr) instead of stopping the others.
+"""
+
+from __future__ import annotations
+
+import enum
+import math
+import sys
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+
+from ..errors import ZwitterError
+from ._app import fail
+
+
+class CysMode(str, enum.Enum):
+    free = "free"
+    bonded = "bonded"
+
+
+class InputKind(str, enum.Enum):
+    auto = "auto"
+    sequence = "sequence"
+    proforma = "proforma"
+    smiles = "smiles"
+
+
+ScaleOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--scale", "-s", help="pKa scale: a name from `zwitter scales` or a .csv/.toml file."
+    ),
+]
+CysOpt = Annotated[
+    CysMode,
+    typer.Option(
+        "--cys", help="Cysteines: free thiols, or all bonded in disulfides (no thiol site)."
+    ),
+]
+KindOpt = Annotated[
+    InputKind,
+    typer.Option("--kind", help="How to read the inputs (auto detects sequence/ProForma/SMILES)."),
+]
+TempOpt = Annotated[
+    float | None,
+    typer.Option("--temp", help="Temperature in deg C (default: the pKa sources' 25 deg C)."),
+]
+IonicOpt = Annotated[
+    float | None,
+    typer.Option("--ionic-strength", help="Ionic strength in mol/L (default: 0, infinite dilution)."),
+]
+
+
+def conditions_from(temp: float | None, ionic_strength: float | None) -> Any:
+    """A Conditions object, or None when neither option was given."""
+    if temp is None and ionic_strength is None:
+        return None
+    from ..conditions import Conditions
+
+    try:
+        return Conditions(
+            temperature=25.0 if temp is None else temp,
+            ionic_strength=0.0 if ionic_strength is None else ionic_strength,
+        )
+    except ZwitterError as exc:
+        fail(str(exc))
+
+
+def read_items(texts: list[str] | None, input_file: Path | None) -> list[tuple[str, str, str]]:
+    """(id, text, error) for every input: arguments first, then the records of ``input_file``."""
+    from ..fasta import read_sequences
+
+    items: list[tuple[str, str, str]] = []
+    for text in texts or []:
+        label = text if len(text) <= 24 else text[:21] + "..."
+        items.append((label, text, ""))
+    if input_file is not None:
+        try:
+            for rec in read_sequences(input_file):
+                items.append((rec.id, rec.sequence, rec.error))
+        except ZwitterError as exc:
+            fail(str(exc))
+    if not items:
+        fail("no input given: pass sequences (or ProForma, SMILES) as arguments or --input FILE")
+    return items
+
+
+def get_scale_or_fail(scale: str | None) -> Any:
+    from ..scales import get_scale
+
+    try:
+        return get_scale(scale)
+    except ZwitterError as exc:
+        fail(str(exc))
+
+
+def score_items(
+    items: list[tuple[str, str, str]],
+    ph: list[float],
+    scale: Any,
+    *,
+    cys: str = "free",
+    kind: str = "auto",
+    conditions: Any = None,
+) -> tuple[list[dict[str, Any]], int]:
+    """Rows with id, kind, length, pI, charge at each pH and a note; and the number of bad rows."""
+    import numpy as np
+
+    from ..equilibrium import check_ph
+    from ..inputs import detect_kind, molecule_from_text
+    from ..scoring import score_composition
+    from ..sequence import compose
+
+    try:
+        check_ph(ph, "charge")
+    except ZwitterError as exc:
+        fail(str(exc))
+    kinds = [kind if kind != "auto" else detect_kind(text) for _, text, _ in items]
+    rows: list[dict[str, Any]] = [{} for _ in items]
+    plain = [i for i, k in enumerate(kinds) if k == "sequence" and not items[i][2]]
+    if plain:
+        comp = compose([items[i][1] for i in plain], scale, [items[i][0] for i in plain])
+        sites = comp.sites
+        if cys == "bonded":
+            counts = np.array(sites.counts)
+            counts[:, [k for k, g in enumerate(sites.groups) if g == "C"]] = 0.0
+            sites = sites.with_counts(counts)
+        if conditions is not None:
+            sites = conditions.apply(sites)
+        scores = score_composition(comp, ph, sites)
+        notes = scores.warnings()
+        for j, i in enumerate(plain):
+            rows[i] = {
+                "pI": float(scores.pi[j]),
+                **{f"charge@pH{p:g}": float(scores.charge[j, m]) for m, p in enumerate(ph)},
+                "length": int(comp.lengths[j]),
+                "note": scores.errors[j] or "; ".join(notes[j]),
+                "_bad": bool(scores.errors[j]),
+            }
+    for i, (ident, text, error) in enumerate(items):
+        if rows[i]:
+            continue
+        if error:
+            rows[i] = {"note": f"record {ident!r}: {error}", "_bad": True}
+            continue
+        try:
+            import warnings
+
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always")
+                mol = molecule_from_text(
+                    text, kinds[i], scale=scale, cys=cys, conditions=conditions
+                )
+                pi = mol.isoelectric_point()
+                charges = mol.charge(np.asarray(ph, dtype=float))
+            rows[i] = {
+                "pI": math.nan if pi is None else float(pi),
+                **{f"charge@pH{p:g}": float(c) for p, c in zip(ph, np.atleast_1d(charges))},
+                "length": len(mol.info.get("chains", [])) or None,
+                "note": "; ".join(dict.fromkeys(str(w.message) for w in caught)),
+                "_bad": False,
+            }
+            seq = "".join(c.get("sequence", "") for c in mol.info.get("chains", []))
+            rows[i]["length"] = len(seq) if seq else None
+        except ZwitterError as exc:
+            rows[i] = {"note": f"record {ident!r}: {exc}", "_bad": True}
+    out = []
+    bad = 0
+    for i, (ident, _, _) in enumerate(items):
+        r = rows[i]
+        if r.pop("_bad", False):
+            bad += 1
+            sys.stderr.write(f"zwitter: error: {r['note']}\n")
+        row: dict[str, Any] = {"id": ident, "kind": kinds[i], "length": r.get("length")}
+        row["pI"] = r.get("pI", math.nan)
+        for p in ph:
+            row[f"charge@pH{p:g}"] = r.get(f"charge@pH{p:g}", math.nan)
+        row["note"] = r.get("note", "")
+        out.append(row)
+    return out, bad
