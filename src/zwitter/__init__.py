@@ -12,6 +12,16 @@ form, the average net charge, the macroscopic pKa values and the isoelectric poi
 
 from __future__ import annotations
 
+from .buffers import (
+    Recipe,
+    buffer_pkas,
+    buffer_recipe,
+    buffer_table,
+    get_buffer,
+    mixture_ph,
+    suitable_buffers,
+)
+from .conditions import Conditions
 from .equilibrium import DominantForm
 from .errors import (
     BufferLookupError,
@@ -30,6 +40,7 @@ from .inputs import detect_kind, molecule_from_text
 from .modifications import list_modifications
 from .molecule import Molecule
 from .proforma import from_proforma, parse_proforma, to_proforma
+from .purification import Plan, elution_order, plan_ion_exchange, separation_ph
 from .scales import DEFAULT_SCALE, Scale, get_scale, list_scales, load_scale_file, scale_names
 from .sequence import from_sequence
 from .sites import Site, SiteSet, permanent_charge
@@ -50,6 +61,18 @@ def __getattr__(name: str) -> str:
 
 __all__ = [
     "__version__",
+    "Conditions",
+    "Plan",
+    "Recipe",
+    "buffer_pkas",
+    "buffer_recipe",
+    "buffer_table",
+    "elution_order",
+    "get_buffer",
+    "mixture_ph",
+    "plan_ion_exchange",
+    "separation_ph",
+    "suitable_buffers",
     "DEFAULT_SCALE",
     "DominantForm",
     "Molecule",

@@ -238,7 +238,8 @@ class Molecule:
 
     def _group_states(self, ph: float) -> list[_GroupState]:
         s = self.sites
-        fr = eq.state_fractions(ph, s.pkas) if s.pkas.shape[-1] else np.ones((s.n_types, 1))
+        at = self._site_ph(ph, "residue_states")
+        fr = eq.state_fractions(at, s.pkas) if s.pkas.shape[-1] else np.ones((s.n_types, 1))
         out: list[_GroupState] = []
         for k in range(s.n_types):
             n = int(s.nsteps[k])
@@ -294,7 +295,8 @@ class Molecule:
 
             raise ParameterError("top", "microstates", "a whole number >= 1", top)
         s = self.sites
-        fr = eq.state_fractions(ph, s.pkas) if s.pkas.shape[-1] else np.ones((s.n_types, 1))
+        at = self._site_ph(ph, "microstates")
+        fr = eq.state_fractions(at, s.pkas) if s.pkas.shape[-1] else np.ones((s.n_types, 1))
         groups: list[tuple[str, float, np.ndarray]] = []  # (name, charge of top state, fractions)
         rounded = False
         for k in range(s.n_types):

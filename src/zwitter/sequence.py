@@ -416,7 +416,7 @@ def from_sequence(
     check_cys(cys, "from_sequence")
     sc = get_scale(scale)
     sites, notes = sites_for_sequence(sequence, sc, name)
-    info: dict[str, object] = {"cys": cys}
+    info: dict[str, object] = {"cys": cys, "sequence": clean_sequence(sequence)}
     if cys == "bonded":
         sites, bonded = bond_all_cysteines(sites)
         info["bonded_cysteines"] = bonded

@@ -8,5 +8,6 @@ from __future__ import annotations
 
 from ._app import app, main
 from . import sequence_cmds  # noqa: F401  (registers pi, charge, scales, demo)
+from . import buffer_cmds  # noqa: F401
 
 __all__ = ["app", "main"]
