@@ -45,16 +45,23 @@ __all__ = [
 
 STANDARD = "ACDEFGHIKLMNPQRSTVWY"
 VALID = STANDARD + "UOBZJX"
+_VALID_SET = frozenset(VALID)
 _WHITESPACE = b" \t\r\n\v\f"
 _SEP = 0  # byte joining the sequences of a chunk (NUL never occurs in a valid sequence)
 
 _UPPER = np.arange(256, dtype=np.uint8)
 _UPPER[ord("a") : ord("z") + 1] -= 32
-_VALID = np.zeros(256, dtype=bool)
-_VALID[[ord(c) for c in VALID + VALID.lower()]] = True
-# bytes that are errors wherever they occur (the separator and '*' are handled on their own)
-_INVALID = ~_VALID
-_INVALID[[_SEP, ord("*")]] = False
+# Compact residue codes: 0 separator, 1-26 the letters A-Z (either case; code = upper byte - 64),
+# 27 '*', 31 any other byte (an error wherever it occurs).
+_STAR = 27
+_BAD = 31
+_CODES = np.full(256, _BAD, dtype=np.uint8)
+_CODES[_SEP] = 0
+_CODES[ord("A") : ord("Z") + 1] = np.arange(1, 27)
+_CODES[ord("a") : ord("z") + 1] = np.arange(1, 27)
+_CODES[ord("*")] = _STAR
+# (every one of the 26 letters is a valid one-letter code under the policy above)
+_COMPACT = bytes(_CODES.tolist())
 
 
 @dataclass(frozen=True)
@@ -145,11 +152,15 @@ class Composition:
     lengths: npt.NDArray[np.int64]
     errors: tuple[SequenceError | None, ...]
     unknown: npt.NDArray[np.int64]
-    letters: npt.NDArray[np.int64]  # (N, 256) residue letter counts (upper case), for masses etc.
+    letters: npt.NDArray[np.int64]  # (N, 32) residue counts: column ord(letter) - 64 (A = 1)
 
     @property
     def sites(self) -> SiteSet:
         return self.layout.sites.with_counts(self.counts)
+
+    def letter_counts(self, letters: str) -> npt.NDArray[np.int64]:
+        """(N, len(letters)) counts of the given one-letter codes, e.g. ``"DEKR"``."""
+        return self.letters[:, [ord(c.upper()) - 64 for c in letters]]
 
     def warnings_for(self, i: int) -> list[str]:
         out = []
@@ -212,12 +223,14 @@ def _compose_block(
     k = layout.sites.n_types
     if n == 0:
         z = np.zeros((0,), dtype=np.int64)
-        return Composition(layout, np.zeros((0, k)), z, (), z, np.zeros((0, 256), dtype=np.int64))
+        return Composition(layout, np.zeros((0, k)), z, (), z, np.zeros((0, 32), dtype=np.int64))
     joined = "\x00".join(sequences)
-    data = joined.encode("utf-8", errors="surrogatepass").translate(None, _WHITESPACE)
-    raw = np.frombuffer(data, dtype=np.uint8)
-    is_sep = raw == _SEP
-    if int(is_sep.sum()) != n - 1:
+    # One C pass maps every byte to its compact code (letters folded to 1-26, '*' 27, anything
+    # else 31) and drops whitespace.
+    data = joined.encode("utf-8", errors="surrogatepass").translate(_COMPACT, _WHITESPACE)
+    code = np.frombuffer(data, dtype=np.uint8)
+    seps = np.flatnonzero(code == _SEP)
+    if seps.size != n - 1:
         # A NUL inside a sequence would shift rows: compose with every NUL replaced by another
         # invalid byte (same position), then name the original character in the errors.
         safe = compose([s.replace("\x00", "\x01") for s in sequences], scale, records)
@@ -230,47 +243,40 @@ def _compose_block(
             for i, e in enumerate(safe.errors)
         )
         return Composition(layout, safe.counts, safe.lengths, named, safe.unknown, safe.letters)
-    seps = np.flatnonzero(is_sep)
     starts = np.concatenate([[0], seps + 1])
-    ends = np.concatenate([seps, [raw.size]])  # exclusive
+    ends = np.concatenate([seps, [code.size]])  # exclusive
+    # Letter counts per row: one bincount over (row << 5 | code); the row index comes from
+    # np.repeat over the row lengths (the separator is counted with the row before it, in
+    # column 0, which has no weight).
+    spans = np.diff(np.concatenate([[0], ends + 1])).astype(np.intp)
+    spans[-1] -= 1  # the last row has no separator after it
+    key = np.repeat(np.arange(n, dtype=np.intp) << 5, spans)
+    key |= code
+    letters = np.bincount(key, minlength=n * 32).reshape(n, 32)
+    letters[:, 0] = 0
     rec = (lambda r: records[r]) if records else (lambda r: "")
     errors: list[SequenceError | None] = [None] * n
-    # A final '*' (stop) is dropped; a '*' anywhere else is an error. Stars are rare: find them all.
-    stars = np.flatnonzero(raw == ord("*"))
+    # A final '*' (stop) is dropped; anywhere else it is an error (found below).
     star_end = np.zeros(n, dtype=bool)
-    if stars.size:
-        star_rows = np.searchsorted(seps, stars, side="right")
-        terminal = stars == ends[star_rows] - 1
-        star_end[star_rows[terminal]] = True
-        for r, b in zip(star_rows[~terminal].tolist(), stars[~terminal].tolist()):
-            if errors[r] is None:
-                errors[r] = SequenceError(
-                    "'*' (stop) is allowed only at the end", b - int(starts[r]) + 1, "*", rec(r)
-                )
-    ends = ends - star_end
+    if letters[:, _STAR].any():
+        nonempty = ends > starts
+        star_end[nonempty] = code[ends[nonempty] - 1] == _STAR
+        letters[:, _STAR] -= star_end
+        ends = ends - star_end
     lengths = (ends - starts).astype(np.int64)
-    bad_idx = np.flatnonzero(_INVALID[raw])
-    if bad_idx.size:
-        bad_rows, first = np.unique(np.searchsorted(seps, bad_idx, side="right"), return_index=True)
-        for r, b in zip(bad_rows.tolist(), bad_idx[first].tolist()):
-            pos = b - int(starts[r]) + 1
-            earlier = errors[r]
-            if earlier is None or earlier.position > pos:
-                ch = _real_char(sequences[r], pos) or chr(raw[b])
-                errors[r] = SequenceError("invalid residue", pos, ch, rec(r))
+    # Rows with an invalid byte or an inner '*': the exact message (character, 1-based position
+    # among residues) comes from the one-sequence reader; such rows are rare.
+    for r in np.flatnonzero((letters[:, _BAD] > 0) | (letters[:, _STAR] > 0)).tolist():
+        try:
+            clean_sequence(sequences[r])
+        except SequenceError as exc:
+            errors[r] = SequenceError(exc.reason, exc.position, exc.character, rec(r))
+    letters[:, _STAR] = 0
+    letters[:, _BAD] = 0
     for r in np.flatnonzero(lengths == 0).tolist():
         errors[r] = SequenceError("empty sequence", 0, "", rec(r))
-    # Letter counts per row: one bincount over (row << 8 | byte); separators land in column 0 of
-    # the next row and a final '*' in its own column, both with zero weight. Lower case is folded
-    # into upper case on the small N x 256 matrix instead of on every byte.
-    key = (np.cumsum(is_sep, dtype=np.int32) << 8) | raw
-    letters = np.bincount(key, minlength=n * 256).reshape(n, 256)
-    letters[:, ord("A") : ord("Z") + 1] += letters[:, ord("a") : ord("z") + 1]
-    letters[:, ord("a") : ord("z") + 1] = 0
-    letters[:, 0] = 0
-    letters[:, ord("*")] = 0
     if not layout.has_u:
-        for r in np.flatnonzero(letters[:, ord("U")]).tolist():
+        for r in np.flatnonzero(letters[:, ord("U") - 64]).tolist():
             if errors[r] is None:
                 cleaned = sequences[r].translate({ord(c): None for c in " \t\r\n\v\f"}).upper()
                 errors[r] = SequenceError(
@@ -280,24 +286,24 @@ def _compose_block(
                     "U",
                     rec(r),
                 )
-    counts = letters @ layout.letter_weights
+    counts = letters @ layout.letter_weights[64:96]
     rows_ne = np.flatnonzero(lengths > 0)
-    first_code = _UPPER[raw[starts[rows_ne]]]
-    last_code = _UPPER[raw[ends[rows_ne] - 1]]
+    first_code = code[starts[rows_ne]].astype(np.intp) + 64  # back to upper-case byte values
+    last_code = code[ends[rows_ne] - 1].astype(np.intp) + 64
     counts[rows_ne, layout.nterm_col[first_code]] += 1.0
     counts[rows_ne, layout.cterm_col[last_code]] += 1.0
-    for side_map, code in ((layout.side_cterm_col, last_code), (layout.side_nterm_col, first_code)):
-        col = side_map[code]
+    for side_map, byte in ((layout.side_cterm_col, last_code), (layout.side_nterm_col, first_code)):
+        col = side_map[byte]
         hit = col >= 0
         if side_map is layout.side_nterm_col:
             # a one-residue chain keeps its C-terminal context only
-            hit &= ~((lengths[rows_ne] == 1) & (layout.side_cterm_col[code] >= 0))
+            hit &= ~((lengths[rows_ne] == 1) & (layout.side_cterm_col[byte] >= 0))
         r = rows_ne[hit]
-        counts[r, layout.side_col[code[hit]]] -= 1.0
+        counts[r, layout.side_col[byte[hit]]] -= 1.0
         counts[r, col[hit]] += 1.0
     failed = np.array([e is not None for e in errors])
     counts[failed] = 0.0
-    unknown = letters[:, ord("X")].astype(np.int64)
+    unknown = letters[:, ord("X") - 64].astype(np.int64)
     return Composition(layout, counts, lengths, tuple(errors), unknown, letters)
 
 
@@ -309,17 +315,17 @@ def clean_sequence(text: str) -> str:
     """
     if not isinstance(text, str):
         raise SequenceError(f"a sequence must be a string, got {type(text).__name__}")
-    cleaned = text.translate({ord(c): None for c in " \t\r\n\v\f"}).upper()
-    if cleaned.endswith("*"):
-        cleaned = cleaned[:-1]
-    if not cleaned:
+    kept = text.translate({ord(c): None for c in " \t\r\n\v\f"})
+    if kept.endswith("*"):
+        kept = kept[:-1]
+    if not kept:
         raise SequenceError("empty sequence")
-    for i, ch in enumerate(cleaned, start=1):
-        if ch not in VALID:
+    for i, ch in enumerate(kept, start=1):
+        if ch.upper() not in _VALID_SET:
             if ch == "*":
                 raise SequenceError("'*' (stop) is allowed only at the end", i, ch)
             raise SequenceError("invalid residue", i, ch)
-    return cleaned
+    return kept.upper()
 
 
 def sites_for_sequence(text: str, scale: Scale, record: str = "") -> tuple[SiteSet, list[str]]:

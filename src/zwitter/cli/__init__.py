@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from ._app import app, main
 from . import sequence_cmds  # noqa: F401  (registers pi, charge, scales, demo)
+from . import batch_cmd  # noqa: F401
 from . import buffer_cmds  # noqa: F401
+from . import report_cmds  # noqa: F401
 
 __all__ = ["app", "main"]

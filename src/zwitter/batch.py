@@ -1,0 +1,1311 @@
+"""Proteome-scale scoring: streaming, chunked, parallel, and nothing lost.
+
+The flow of a batch run::
+
+    input file(s) --split--> blocks of whole records (bytes; main process, cheap)
+                  --score--> one DataFrame per block (worker: parse, compose, one vectorised solve)
+                  --encode-> CSV/TSV/JSON-lines text or an Arrow table (worker)
+                  --write--> a temporary file beside the output, renamed when everything is written
+
+* **Streaming.** Inputs are read in blocks of ``chunk_size`` records; at most a few blocks per
+  worker are in flight, so memory does not grow with the file.
+* **Vectorised.** A block of N sequences is one (N, K) count matrix
+  (:func:`zwitter.sequence.compose`), scored by one call of
+  :func:`zwitter.scoring.score_composition` (charge at M pH values as one N x M product, pI of all
+  N rows by one vectorised bisection); masses come from the (N, 256) letter-count matrix
+  (:func:`zwitter.masses.chain_masses`). Python loops only parse headers and build error texts.
+* **Parallel and ordered.** ``jobs > 1`` scores blocks in worker processes; results are taken
+  back in submission order, so the output keeps the input order. The same block scorer runs on
+  Dask (:mod:`zwitter.distributed`).
+* **Nothing lost.** Every record appears once, in input order, including bad ones: their
+  ``error`` column says what is wrong and where (input line, position in the sequence), and their
+  numbers are empty. ``strict=True`` stops at the first bad record instead. A missing,
+  truncated or corrupt input file is not a bad record but a bad input: InputFileError, and
+  :func:`score_files` leaves no output file (the chunks before the damage are not written as if
+  they were the whole file).
+* **Scripts.** With ``jobs > 1`` the workers re-import the script's main module (start method
+  forkserver, or spawn): put the call under ``if __name__ == "__main__":``.
+
+Output columns
+--------------
+``input`` (file name as given, ``<stdin>`` for ``-``), ``id`` (header up to the first whitespace),
+``description``, ``length`` (residues), ``average_mass`` and ``monoisotopic_mass`` (Da, linear
+chain: residues + H2O; empty when the sequence has X), ``pI``, ``charge_ph<pH>`` for each pH,
+``n_D n_E n_C n_Y n_H n_K n_R n_U`` (ionizable residues), ``n_unknown`` (X), ``warnings``,
+``error``. ``--cys bonded`` removes every cysteine thiol from the charge model; ``n_C`` still counts
+the cysteines.
+
+Extension points
+----------------
+* **Conditions** (temperature, ionic strength): pass ``conditions=`` any object whose
+  ``apply(sites)`` returns a :class:`~zwitter.sites.SiteSet` with adjusted pKa values (such as
+  :class:`zwitter.conditions.Conditions`); it is applied to each chunk's batch SiteSet before the
+  solve. It must pickle when ``jobs > 1`` or on Dask.
+* **Input formats**: :func:`register_input_format` adds an :class:`InputFormat` (a splitter that
+  cuts an input into :class:`Block` objects in the main process, a block scorer that runs in the
+  workers, and the output columns). FASTA is built in; SMILES (``.smi``) and SD files (``.sdf``)
+  plug in the same way.
+"""
+
+from __future__ import annotations
+
+import collections
+import gzip
+import math
+import multiprocessing
+import os
+import signal
+import sys
+import tempfile
+import time
+import uuid
+import zlib
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from concurrent.futures import Future, ProcessPoolExecutor
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import IO, TYPE_CHECKING, Any, Protocol
+
+import numpy as np
+import numpy.typing as npt
+
+from . import equilibrium as eq
+from .errors import InputFileError, ParameterError
+from .masses import chain_masses
+from .scales import Scale, get_scale
+from .scoring import score_composition
+from .sequence import check_cys, compose
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+__all__ = [
+    "DEFAULT_CHUNK_SIZE",
+    "IONIZABLE",
+    "BatchOptions",
+    "BatchSummary",
+    "Block",
+    "InputFormat",
+    "make_options",
+    "charge_column",
+    "output_columns",
+    "empty_frame",
+    "score_chunk",
+    "score_columns",
+    "to_frame",
+    "to_arrow",
+    "encode_rows",
+    "score_list",
+    "iter_score_fasta",
+    "score_fasta",
+    "score_files",
+    "register_input_format",
+    "input_format_for",
+    "split_fasta",
+    "parse_fasta_block",
+    "OUTPUT_FORMATS",
+    "output_format_for",
+]
+
+#: Records per chunk: large enough that numpy's per-call overhead vanishes, small enough that a
+#: chunk's arrays (about 3 kB per record, mostly the 256-letter count row) stay a few tens of MB.
+DEFAULT_CHUNK_SIZE = 10_000
+#: Residues whose counts the output reports (their side chains carry the sites of the model).
+IONIZABLE = "DECYHKRU"
+#: Shortest sequence for which "only A, C, G, T/U and N" suggests a nucleotide sequence.
+NUCLEOTIDE_MIN_LENGTH = 20
+#: Record errors printed on stderr by a run before it only counts them.
+MAX_REPORTED_ERRORS = 5
+_READ_SIZE = 1 << 20
+
+
+# -- options ----------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class BatchOptions:
+    """What to compute for every record: pH values, pKa scale, cysteine policy, conditions.
+
+    Build it with :func:`make_options` (which validates). ``token`` identifies the options across
+    processes, so workers reuse one copy per run (and its cached letter-to-site layout).
+    """
+
+    ph: tuple[float, ...]
+    scale: Scale
+    cys: str = "free"
+    conditions: Any = None
+    token: str = field(default_factory=lambda: uuid.uuid4().hex)
+
+
+def make_options(
+    ph: float | Iterable[float] = (7.0,),
+    scale: str | Path | Scale | None = None,
+    cys: str = "free",
+    conditions: Any = None,
+    *,
+    where: str = "score_fasta",
+) -> BatchOptions:
+    """Validated :class:`BatchOptions` (pH values in range and distinct, a known scale)."""
+    values = [ph] if isinstance(ph, (int, float)) else list(ph)
+    if not values:
+        raise ParameterError("ph", where, "one or more pH values", values)
+    grid = eq.check_ph(np.asarray(values, dtype=float), where)
+    if grid.ndim != 1:
+        raise ParameterError("ph", where, "a flat list of pH values", values)
+    names = [charge_column(float(p)) for p in grid]
+    if len(set(names)) != len(names):
+        seen = [n for n in names if names.count(n) > 1][0]
+        raise ParameterError(
+            "ph",
+            where,
+            "distinct pH values",
+            values,
+            f"{seen.removeprefix('charge_ph')} is given twice.",
+        )
+    check_cys(cys, where)
+    if conditions is not None and not callable(getattr(conditions, "apply", None)):
+        raise ParameterError(
+            "conditions", where, "an object with an apply(sites) method (zwitter.Conditions)",
+            f"<{type(conditions).__name__}>",
+        )  # fmt: skip
+    return BatchOptions(tuple(float(p) for p in grid), get_scale(scale), cys, conditions)
+
+
+_CANONICAL: collections.OrderedDict[str, BatchOptions] = collections.OrderedDict()
+
+
+def _canonical(options: BatchOptions) -> BatchOptions:
+    """The first copy of these options seen by this process.
+
+    Each task that crosses a process boundary unpickles a fresh copy; keeping one per token lets
+    the layout cache of :func:`zwitter.sequence.layout_for` (keyed on the scale object) hit.
+    """
+    kept = _CANONICAL.get(options.token)
+    if kept is None:
+        _CANONICAL[options.token] = kept = options
+        while len(_CANONICAL) > 8:
+            _CANONICAL.popitem(last=False)
+    return kept
+
+
+def charge_column(ph: float) -> str:
+    """Charge column name for ``ph``: ``charge_ph7.0``, ``charge_ph7.4``, ``charge_ph7.25``."""
+    text = f"{ph:g}"
+    if "." not in text and "e" not in text:
+        text += ".0"
+    return f"charge_ph{text}"
+
+
+def output_columns(options: BatchOptions) -> list[tuple[str, str]]:
+    """(name, kind) of the output columns of sequence records; kind is str, int or float."""
+    cols = [("input", "str"), ("id", "str"), ("description", "str"), ("length", "int")]
+    cols += [("average_mass", "float"), ("monoisotopic_mass", "float"), ("pI", "float")]
+    cols += [(charge_column(p), "float") for p in options.ph]
+    cols += [(f"n_{r}", "int") for r in IONIZABLE] + [("n_unknown", "int")]
+    cols += [("warnings", "str"), ("error", "str")]
+    return cols
+
+
+def empty_frame(options: BatchOptions) -> pd.DataFrame:
+    """A frame with no rows and the output columns and dtypes (Dask ``meta``, empty inputs)."""
+    import pandas as pd
+
+    # ``str`` is the text dtype of the pandas in use (object in pandas 2, "str" in pandas 3), the
+    # same that score_chunk's columns of Python strings get.
+    dtypes: dict[str, Any] = {"str": str, "int": "Int64", "float": "float64"}
+    return pd.DataFrame(
+        {name: pd.Series([], dtype=dtypes[kind]) for name, kind in output_columns(options)}
+    )
+
+
+def _empty_columns(options: BatchOptions) -> Columns:
+    empty: dict[str, Any] = {
+        "str": lambda: np.zeros(0, dtype=object),
+        "int": lambda: np.ma.MaskedArray(np.zeros(0, dtype=np.int64), mask=np.zeros(0, dtype=bool)),
+        "float": lambda: np.zeros(0),
+    }
+    return {name: empty[kind]() for name, kind in output_columns(options)}
+
+
+def to_frame(columns: Columns, options: BatchOptions) -> pd.DataFrame:
+    """:data:`Columns` as a DataFrame (nullable Int64 for the counts)."""
+    import pandas as pd
+
+    first = next(iter(columns.values()), None)
+    if first is None or len(first) == 0:
+        return empty_frame(options)
+    data = {
+        name: pd.arrays.IntegerArray(np.asarray(v.data), np.ma.getmaskarray(v))
+        if isinstance(v, np.ma.MaskedArray)
+        else v
+        for name, v in columns.items()
+    }
+    return pd.DataFrame(data)
+
+
+def to_arrow(columns: Columns | pd.DataFrame, schema: Any) -> Any:
+    """:data:`Columns` (or a frame) as a pyarrow Table with ``schema`` (empty values as nulls)."""
+    import pyarrow as pa
+
+    if not isinstance(columns, dict):
+        return pa.Table.from_pandas(columns, schema=schema, preserve_index=False)
+    arrays = []
+    for field_ in schema:
+        v = columns[field_.name]
+        if isinstance(v, np.ma.MaskedArray):
+            arrays.append(
+                pa.array(np.asarray(v.data), mask=np.ma.getmaskarray(v), type=field_.type)
+            )
+        else:
+            arrays.append(pa.array(v, type=field_.type, from_pandas=True))
+    return pa.Table.from_arrays(arrays, schema=schema)
+
+
+# -- the one chunk scorer ---------------------------------------------------------------------
+Columns = dict[str, Any]
+"""Output columns of a chunk as numpy arrays, without pandas: float64 (NaN = empty), object
+arrays of str, and masked int64 arrays (``numpy.ma``; masked = empty)."""
+
+
+def score_chunk(
+    sequences: Sequence[str],
+    ids: Sequence[str] | None = None,
+    descriptions: Sequence[str] | None = None,
+    options: BatchOptions | None = None,
+    *,
+    input_name: str = "",
+    lines: Sequence[int] | None = None,
+    record_errors: Sequence[str] | None = None,
+) -> pd.DataFrame:
+    """Score N sequences in one vectorised pass; one output row per sequence, in order.
+
+    The DataFrame form of :func:`score_columns` (same parameters).
+    """
+    opts = _canonical(options or make_options())
+    cols = score_columns(
+        sequences, ids, descriptions, opts,
+        input_name=input_name, lines=lines, record_errors=record_errors,
+    )  # fmt: skip
+    return to_frame(cols, opts)
+
+
+def score_columns(
+    sequences: Sequence[str],
+    ids: Sequence[str] | None = None,
+    descriptions: Sequence[str] | None = None,
+    options: BatchOptions | None = None,
+    *,
+    input_name: str = "",
+    lines: Sequence[int] | None = None,
+    record_errors: Sequence[str] | None = None,
+) -> Columns:
+    """Score N sequences in one vectorised pass: the output :data:`Columns`, rows in order.
+
+    Parameters
+    ----------
+    sequences
+        One-letter sequences (whitespace and line breaks inside are ignored).
+    ids, descriptions
+        Record ids and descriptions (default: ``seq1``, ``seq2``, ... and empty).
+    options
+        From :func:`make_options` (default: pH 7.0, default scale, free cysteines).
+    input_name
+        Value of the ``input`` column.
+    lines
+        Input line of each record, named in error messages.
+    record_errors
+        Errors found while reading (non-empty string = the record is bad; it is not scored).
+    """
+    opts = _canonical(options or make_options())
+    n = len(sequences)
+    if ids is None:
+        ids = [f"seq{i + 1}" for i in range(n)]
+    if descriptions is None:
+        descriptions = [""] * n
+    if not (len(ids) == len(descriptions) == n):
+        raise ValueError("sequences, ids and descriptions must have the same length")
+    if n == 0:
+        return _empty_columns(opts)
+    comp = compose(sequences, opts.scale, ids)
+    sites = comp.sites
+    if opts.cys == "bonded":
+        # Every cysteine in a disulfide (sequence.bond_all_cysteines for the matrix): no thiol site.
+        cys_cols = [k for k, g in enumerate(sites.groups) if g == "C"]
+        counts = np.array(sites.counts)
+        counts[:, cys_cols] = 0.0
+        sites = sites.with_counts(counts)
+    if opts.conditions is not None:
+        sites = opts.conditions.apply(sites)
+    scores = score_composition(comp, opts.ph, sites=sites)
+
+    failed = np.fromiter((e is not None for e in comp.errors), dtype=bool, count=n)
+    error_text = np.full(n, "", dtype=object)
+    for i in np.flatnonzero(failed).tolist():
+        error_text[i] = str(comp.errors[i])
+    if record_errors is not None:
+        for i, text in enumerate(record_errors):
+            if text:
+                error_text[i] = text
+                failed[i] = True
+    if lines is not None:
+        for i in np.flatnonzero(failed).tolist():
+            error_text[i] = f"line {lines[i]}: {error_text[i]}"
+
+    letters = comp.letters
+    mono, avg = chain_masses(letters)
+    # 1e-5 Da is far below what any measurement resolves; it keeps float noise out of the files.
+    mono = np.where(failed, np.nan, np.round(mono, 5))
+    avg = np.where(failed, np.nan, np.round(avg, 5))
+    pi = np.where(failed, np.nan, scores.pi)
+    charge = np.where(failed[:, None], np.nan, scores.charge)
+
+    notes = _warnings(comp, scores.pi_reasons, failed)
+
+    def ints(values: npt.ArrayLike) -> np.ma.MaskedArray[Any, Any]:
+        return np.ma.MaskedArray(np.asarray(values, dtype=np.int64), mask=failed.copy())
+
+    data: dict[str, Any] = {
+        "input": np.full(n, input_name, dtype=object),
+        "id": np.asarray(ids, dtype=object),
+        "description": np.asarray(descriptions, dtype=object),
+        "length": ints(comp.lengths),
+        "average_mass": avg,
+        "monoisotopic_mass": mono,
+        "pI": pi,
+    }
+    for j, p in enumerate(opts.ph):
+        data[charge_column(p)] = charge[:, j]
+    for r in IONIZABLE:
+        data[f"n_{r}"] = ints(comp.letter_counts(r)[:, 0])
+    data["n_unknown"] = ints(comp.unknown)
+    data["warnings"] = notes
+    data["error"] = error_text
+    return data
+
+
+def _warnings(
+    comp: Any, pi_reasons: Sequence[str], failed: npt.NDArray[np.bool_]
+) -> npt.NDArray[Any]:
+    """Per-row caution texts; Python work only for the rows that have one."""
+    n = len(failed)
+    notes = np.full(n, "", dtype=object)
+    nucleotide = comp.letter_counts("ACGTUN").sum(axis=1)
+    looks_nt = (nucleotide == comp.lengths) & (comp.lengths >= NUCLEOTIDE_MIN_LENGTH)
+    reasons = (
+        np.asarray(pi_reasons, dtype=object) if len(pi_reasons) else np.full(n, "", dtype=object)
+    )
+    has_reason = reasons != ""
+    for i in np.flatnonzero(~failed & ((comp.unknown > 0) | has_reason | looks_nt)).tolist():
+        parts = comp.warnings_for(i)
+        if looks_nt[i]:
+            parts.append("only A, C, G, T/U and N letters: is this a nucleotide sequence?")
+        if has_reason[i]:
+            parts.append(str(reasons[i]))
+        notes[i] = "; ".join(parts)
+    return notes
+
+
+def score_list(
+    sequences: Sequence[str],
+    ids: Sequence[str] | None = None,
+    descriptions: Sequence[str] | None = None,
+    *,
+    ph: float | Iterable[float] = (7.0,),
+    scale: str | Path | Scale | None = None,
+    cys: str = "free",
+    conditions: Any = None,
+    chunk_size: int = DEFAULT_CHUNK_SIZE,
+) -> pd.DataFrame:
+    """Score an in-memory list of sequences; one row per sequence, in order.
+
+    Examples
+    --------
+    >>> df = score_list(["DK", "MKWVTFISLLFLFSSAYS"], ["a", "b"], ph=[7.0, 7.4])
+    >>> df["id"].tolist(), df["length"].tolist(), list(df.columns[7:9])
+    (['a', 'b'], [2, 18], ['charge_ph7.0', 'charge_ph7.4'])
+    """
+    import pandas as pd
+
+    opts = make_options(ph, scale, cys, conditions, where="score_list")
+    _check_chunk_size(chunk_size, "score_list")
+    seqs = list(sequences)
+    idl = list(ids) if ids is not None else [f"seq{i + 1}" for i in range(len(seqs))]
+    descs = list(descriptions) if descriptions is not None else [""] * len(seqs)
+    if not (len(idl) == len(descs) == len(seqs)):
+        raise ParameterError(
+            "ids", "score_list", f"as many ids and descriptions as sequences ({len(seqs)})",
+            f"{len(idl)} ids, {len(descs)} descriptions",
+        )  # fmt: skip
+    frames = [
+        score_chunk(
+            seqs[a : a + chunk_size], idl[a : a + chunk_size], descs[a : a + chunk_size], opts
+        )
+        for a in range(0, len(seqs), chunk_size)
+    ]
+    return pd.concat(frames, ignore_index=True) if frames else empty_frame(opts)
+
+
+def _check_chunk_size(chunk_size: int, where: str) -> None:
+    if isinstance(chunk_size, bool) or not isinstance(chunk_size, int) or chunk_size < 1:
+        raise ParameterError("chunk_size", where, "a whole number >= 1", chunk_size)
+
+
+# -- input formats ----------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Block:
+    """A run of whole records cut from one input, ready to send to a worker.
+
+    ``scorer`` is a module-level function ``(block, options) -> Columns or DataFrame`` (it
+    pickles by name; :func:`score_columns` / :func:`score_chunk` build either).
+    ``raw_pos`` is how many bytes of the input file (compressed bytes for gzip) had been read when
+    the block was cut, for progress and ETA.
+    """
+
+    source: str
+    input_index: int
+    data: bytes
+    first_line: int
+    raw_pos: int
+    scorer: Callable[[Block, BatchOptions], Columns | pd.DataFrame]
+
+
+@dataclass(frozen=True)
+class InputFormat:
+    """How to read one kind of input file in a batch.
+
+    split(path, label, input_index, chunk_size) -> Iterator[Block]
+        Runs in the main process: cut the input into blocks of ``chunk_size`` records. Keep it
+        cheap (no parsing beyond finding record boundaries); raise InputFileError for unreadable,
+        truncated or corrupt input.
+    columns(options) -> [(name, kind)]
+        The output columns; every block's frame has exactly these.
+    sniff(first_bytes) -> bool
+        Whether decompressed leading bytes look like this format (for unknown file suffixes).
+    """
+
+    name: str
+    suffixes: tuple[str, ...]
+    split: Callable[[str, str, int, int], Iterator[Block]]
+    columns: Callable[[BatchOptions], list[tuple[str, str]]]
+    sniff: Callable[[bytes], bool]
+
+
+_FORMATS: dict[str, InputFormat] = {}
+
+
+def register_input_format(fmt: InputFormat) -> None:
+    """Make ``fmt`` available to batch runs (by name and by file suffix)."""
+    _FORMATS[fmt.name] = fmt
+
+
+def input_format_for(path: str, name: str = "auto") -> InputFormat:
+    """The format of an input: by ``name``, else by suffix (``.gz`` ignored), else by content."""
+    if name != "auto":
+        if name not in _FORMATS:
+            raise ParameterError(
+                "input_format", "batch", f"one of auto, {', '.join(_FORMATS)}", name
+            )
+        return _FORMATS[name]
+    if path == "-":
+        return _FORMATS["fasta"]
+    lower = path.lower()
+    if lower.endswith(".gz"):
+        lower = lower[:-3]
+    for fmt in _FORMATS.values():
+        if lower.endswith(fmt.suffixes):
+            return fmt
+    head = _peek(path)
+    for fmt in _FORMATS.values():
+        if fmt.sniff(head):
+            return fmt
+    known = ", ".join(f"{f.name} ({' '.join(f.suffixes)})" for f in _FORMATS.values())
+    raise InputFileError(
+        f"cannot tell the input format from the file name or its first line; known formats: "
+        f"{known}; rename the file or pass the format explicitly",
+        path,
+    )
+
+
+def _open_binary(path: str) -> tuple[IO[bytes], IO[bytes] | None, int | None]:
+    """(decompressed byte stream, raw file for progress, raw size); ``-`` is stdin."""
+    if path == "-":
+        return sys.stdin.buffer, None, None
+    p = Path(path)
+    try:
+        raw = p.open("rb")
+    except FileNotFoundError:
+        raise InputFileError("no such file", path) from None
+    except IsADirectoryError:
+        raise InputFileError("is a directory, not a file", path) from None
+    except OSError as exc:
+        raise InputFileError(f"cannot open: {exc.strerror or exc}", path) from None
+    size = os.fstat(raw.fileno()).st_size
+    if raw.peek(2)[:2] == b"\x1f\x8b":
+        return gzip.GzipFile(fileobj=raw, mode="rb"), raw, size  # type: ignore[return-value]
+    return raw, raw, size
+
+
+def _peek(path: str) -> bytes:
+    stream, raw, _ = _open_binary(path)
+    try:
+        return _read(stream, path, lambda: 0)[:4096]
+    finally:
+        stream.close()
+        if raw is not None and raw is not stream:
+            raw.close()
+
+
+def _read(stream: IO[bytes], path: str, line: Callable[[], int]) -> bytes:
+    """Up to one read size of decompressed bytes; ``line()`` says how far the input got."""
+    try:
+        # read1: one decompression step at a time, so a truncated gzip fails at the line where it
+        # breaks off instead of losing the last full read.
+        read = getattr(stream, "read1", stream.read)
+        return read(_READ_SIZE)
+    except EOFError:
+        raise InputFileError(
+            f"the gzip stream ends early: the file is truncated (it breaks off in line {line()})",
+            path,
+        ) from None
+    except (zlib.error, gzip.BadGzipFile) as exc:
+        raise InputFileError(f"corrupt gzip data in line {line()}: {exc}", path) from None
+    except OSError as exc:
+        raise InputFileError(f"read error in line {line()}: {exc.strerror or exc}", path) from None
+
+
+# -- FASTA --------------------------------------------------------------------------------------
+def _header_starts(data: bytes | bytearray, start: int = 0) -> npt.NDArray[np.int64]:
+    """Positions >= ``start`` of every '>' that begins a line (after \\n, \\r, or at 0)."""
+    arr = np.frombuffer(data, dtype=np.uint8)
+    gt = np.flatnonzero(arr[start:] == ord(">")) + start
+    prev = arr[np.maximum(gt - 1, 0)]
+    heads: npt.NDArray[np.int64] = gt[(gt == 0) | (prev == ord("\n")) | (prev == ord("\r"))]
+    return heads
+
+
+def split_fasta(path: str, label: str, input_index: int, chunk_size: int) -> Iterator[Block]:
+    """Cut a FASTA input into blocks of ``chunk_size`` whole records (plain, gzip or ``-``).
+
+    A record starts at a ``>`` at the start of a line; text before the first header stays in the
+    first block (and is reported there). Truncated or corrupt gzip raises
+    :class:`~zwitter.errors.InputFileError` after the complete blocks before it were yielded.
+    """
+    stream, raw, _ = _open_binary(path)
+    try:
+        buf = bytearray()
+        starts: list[int] = []  # positions in buf where a record starts
+        scanned = 0
+        line = 1  # line number of buf[0]
+        prefix_done = False  # whether text before the first header was looked at
+        eof = False
+
+        def line_now() -> int:  # where the input got to, for a truncation message
+            return line + buf.count(b"\n")
+
+        while not eof:
+            data = _read(stream, path, line_now)
+            eof = not data
+            buf += data
+            starts.extend(_header_starts(buf, scanned).tolist())
+            scanned = len(buf)
+            if not prefix_done and starts:
+                prefix_done = True
+                if starts[0] > 0 and buf[: starts[0]].strip():
+                    starts.insert(0, 0)  # text before the first header: a record of its own
+            # A block ends where record chunk_size + 1 begins.
+            while len(starts) > chunk_size:
+                cut = starts[chunk_size]
+                with memoryview(buf) as view:
+                    block = bytes(view[:cut])
+                yield Block(label, input_index, block, line, _tell(raw), _score_fasta_block)
+                line += block.count(b"\n")
+                del buf[:cut]
+                starts = [s - cut for s in starts[chunk_size:]]
+                scanned = len(buf)
+        if buf.strip():
+            yield Block(label, input_index, bytes(buf), line, _tell(raw), _score_fasta_block)
+    finally:
+        if stream is not sys.stdin.buffer:
+            stream.close()
+        if raw is not None and raw is not stream:
+            raw.close()
+
+
+def _tell(raw: IO[bytes] | None) -> int:
+    try:
+        return raw.tell() if raw is not None else 0
+    except (OSError, ValueError):
+        return 0
+
+
+@dataclass(frozen=True)
+class RecordBatch:
+    """Records parsed from one block: parallel lists."""
+
+    ids: list[str]
+    descriptions: list[str]
+    sequences: list[str]
+    lines: list[int]
+    errors: list[str]
+
+
+def parse_fasta_block(block: Block) -> RecordBatch:
+    """The records of a FASTA block (same rules as :func:`zwitter.fasta.read_fasta`).
+
+    Windows and old Mac line endings are accepted, blank lines ignored, a header without
+    sequence lines is a record with an empty sequence, and text before the first header is one
+    record with an error. Bytes that are not UTF-8 become U+FFFD (reported as invalid residues).
+    """
+    data = block.data
+    if b"\r" in data and b"\n" not in data:
+        data = data.replace(b"\r", b"\n")  # old Mac line ends: same lines, one convention
+    heads = _header_starts(data)
+    newlines = np.flatnonzero(np.frombuffer(data, dtype=np.uint8) == ord("\n"))
+    lines = (block.first_line + np.searchsorted(newlines, heads)).tolist()
+    out = RecordBatch([], [], [], [], [])
+    first = int(heads[0]) if heads.size else len(data)
+    if data[:first].strip():
+        lead = len(data[:first]) - len(data[:first].lstrip())
+        where = block.first_line + data.count(b"\n", 0, lead)
+        out.ids.append(f"(before first header, line {where})")
+        out.descriptions.append("")
+        out.sequences.append(data[:first].decode("utf-8", errors="replace"))
+        out.lines.append(where)
+        out.errors.append("sequence text before the first '>' header")
+    if not heads.size:
+        return out
+    # One split of the decoded block at the headers, then C-level string methods per record.
+    parts = data[first + 1 :].decode("utf-8", errors="replace").split("\n>")
+    if len(parts) != len(lines):  # a lone '\r>' line end in a '\n' file: go line by line
+        parts = _split_records(data, heads)
+    split = [p.partition("\n") for p in parts]
+    words = [h.split(None, 1) for h, _, _ in split]
+    out.ids.extend([w[0] if w else f"(no id, line {n})" for w, n in zip(words, lines)])
+    out.descriptions.extend([w[1].strip() if len(w) > 1 else "" for w in words])
+    out.sequences.extend([seq for _, _, seq in split])
+    out.lines.extend(lines)
+    out.errors.extend([""] * len(lines))
+    return out
+
+
+def _split_records(data: bytes, heads: npt.NDArray[np.int64]) -> list[str]:
+    """Record texts (header line, newline, sequence lines) without the leading '>'."""
+    bounds = heads[1:].tolist() + [len(data)]
+    out = []
+    for a, b in zip(heads.tolist(), bounds):
+        text = data[a + 1 : b].decode("utf-8", errors="replace")
+        nl, cr = text.find("\n"), text.find("\r")
+        if 0 <= cr and (nl < 0 or cr < nl - 1):  # a '\r' line end before the first '\n'
+            text = text[:cr] + "\n" + text[cr + 1 :]
+        out.append(text)
+    return out
+
+
+def _score_fasta_block(block: Block, options: BatchOptions) -> Columns:
+    recs = parse_fasta_block(block)
+    return score_columns(
+        recs.sequences, recs.ids, recs.descriptions, options,
+        input_name=block.source, lines=recs.lines, record_errors=recs.errors,
+    )  # fmt: skip
+
+
+def _sniff_fasta(head: bytes) -> bool:
+    return head.lstrip().startswith(b">")
+
+
+FASTA = InputFormat(
+    name="fasta",
+    suffixes=(".fasta", ".fa", ".faa", ".fas", ".fsa", ".mpfa", ".pep", ".aa"),
+    split=split_fasta,
+    columns=output_columns,
+    sniff=_sniff_fasta,
+)
+register_input_format(FASTA)
+
+
+# -- output --------------------------------------------------------------------------------------
+#: Output file suffix -> format. CSV, TSV and JSON lines may end in ``.gz`` as well.
+OUTPUT_FORMATS = {".csv": "csv", ".tsv": "tsv", ".jsonl": "jsonl", ".parquet": "parquet"}
+
+
+def output_format_for(path: str | Path) -> tuple[str, bool]:
+    """(format, gzip) from an output file name; raises ParameterError for unknown suffixes."""
+    name = Path(path).name.lower()
+    compressed = name.endswith(".gz")
+    if compressed:
+        name = name[:-3]
+    for suffix, fmt in OUTPUT_FORMATS.items():
+        if name.endswith(suffix) and not (compressed and fmt == "parquet"):
+            return fmt, compressed
+    allowed = "a file name ending in .csv, .tsv, .jsonl (optionally + .gz) or .parquet"
+    raise ParameterError("output", "batch", allowed, str(path))
+
+
+def _arrow_schema(columns: list[tuple[str, str]]) -> Any:
+    import pyarrow as pa
+
+    types = {"str": pa.string(), "int": pa.int64(), "float": pa.float64()}
+    return pa.schema([(name, types[kind]) for name, kind in columns])
+
+
+def encode_rows(rows: Columns | pd.DataFrame, fmt: str, options: BatchOptions) -> Any:
+    """A chunk's rows as what the writer appends: text bytes, an Arrow table, or a DataFrame.
+
+    CSV, TSV and Parquet go through pyarrow when it is installed (several times faster than
+    pandas, and the workers then need no pandas); CSV quotes every text field (RFC 4180, which
+    every CSV reader takes), TSV quotes none, as Unix tools expect (a chunk whose text holds a
+    tab, quote or line break falls back to pandas, which quotes just those fields).
+    """
+    columns = output_columns(options)
+
+    def frame() -> pd.DataFrame:
+        return rows if not isinstance(rows, dict) else to_frame(rows, options)
+
+    if fmt in ("csv", "tsv"):
+        fast = _arrow_text(rows, fmt, columns)
+        if fast is not None:
+            return fast
+        text = frame().to_csv(
+            None, sep="," if fmt == "csv" else "\t", header=False, index=False, lineterminator="\n"
+        )
+        return text.encode("utf-8")
+    if fmt == "jsonl":
+        f = frame()
+        if f.empty:
+            return b""
+        text = f.to_json(orient="records", lines=True, double_precision=10)
+        return (text if text.endswith("\n") else text + "\n").encode("utf-8")
+    if fmt == "parquet":
+        return to_arrow(rows, _arrow_schema(columns))
+    return frame()
+
+
+def _arrow_text(
+    rows: Columns | pd.DataFrame, fmt: str, columns: list[tuple[str, str]]
+) -> bytes | None:
+    try:
+        import pyarrow as pa
+        import pyarrow.csv as pacsv
+    except ImportError:
+        return None
+    table = to_arrow(rows, _arrow_schema(columns))
+    sink = pa.BufferOutputStream()
+    style = "needed" if fmt == "csv" else "none"
+    options = pacsv.WriteOptions(
+        include_header=False, delimiter="," if fmt == "csv" else "\t", quoting_style=style
+    )
+    try:
+        pacsv.write_csv(table, sink, options)
+    except pa.ArrowInvalid:
+        return None
+    return bytes(sink.getvalue())
+
+
+class _Writer:
+    """Appends encoded chunks to a temporary file beside ``path``; ``commit`` renames it."""
+
+    def __init__(self, path: Path, fmt: str, compressed: bool, columns: list[tuple[str, str]]):
+        self.path = path
+        self.fmt = fmt
+        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".partial")
+        self.tmp = Path(tmp)
+        self._parquet: Any = None
+        self._handle: Any = None
+        try:
+            if fmt == "parquet":
+                os.close(fd)
+                import pyarrow.parquet as pq
+
+                self._parquet = pq.ParquetWriter(str(self.tmp), _arrow_schema(columns))
+            else:
+                raw = os.fdopen(fd, "wb")
+                self._handle = gzip.GzipFile(fileobj=raw, mode="wb") if compressed else raw
+                self._raw = raw
+                if fmt in ("csv", "tsv"):
+                    sep = "," if fmt == "csv" else "\t"
+                    self._handle.write((sep.join(c for c, _ in columns) + "\n").encode("utf-8"))
+        except BaseException:
+            self.abort()
+            raise
+
+    def write(self, payload: Any) -> None:
+        if self._parquet is not None:
+            if payload.num_rows:
+                self._parquet.write_table(payload)
+        elif payload:
+            self._handle.write(payload)
+
+    def commit(self) -> None:
+        if self._parquet is not None:
+            self._parquet.close()
+        else:
+            self._handle.close()
+            if self._handle is not self._raw:
+                self._raw.close()
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(self.tmp, 0o666 & ~umask)  # mkstemp makes 0600; give the usual file mode
+        os.replace(self.tmp, self.path)
+
+    def abort(self) -> None:
+        try:
+            if self._parquet is not None:
+                self._parquet.close()
+            elif self._handle is not None:
+                self._handle.close()
+                if self._handle is not self._raw:
+                    self._raw.close()
+        except Exception:  # noqa: BLE001 - closing a file we are about to delete
+            pass
+        finally:
+            self.tmp.unlink(missing_ok=True)
+
+
+# -- running blocks -------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class ChunkResult:
+    """What a worker sends back for a block: the encoded rows and the counts for the summary."""
+
+    source: str
+    input_index: int
+    raw_pos: int
+    n_records: int
+    n_errors: int
+    errors: tuple[str, ...]  # the first MAX_REPORTED_ERRORS error texts of the block
+    payload: Any
+
+
+def run_block(block: Block, options: BatchOptions, fmt: str = "frame") -> ChunkResult:
+    """Score one block and encode it for the writer (the task every engine runs)."""
+    opts = _canonical(options)
+    rows = block.scorer(block, opts)
+    error = np.asarray(rows["error"], dtype=object)
+    bad = error != ""
+    errors = tuple(error[bad][:MAX_REPORTED_ERRORS].tolist())
+    payload = encode_rows(rows, fmt, opts)
+    return ChunkResult(
+        block.source, block.input_index, block.raw_pos, len(error), int(bad.sum()), errors, payload
+    )
+
+
+class _Result(Protocol):
+    def result(self) -> ChunkResult: ...
+
+
+class Engine(Protocol):
+    """What runs blocks: ``submit`` returns something with ``result()``; ``slots`` bounds how many
+    blocks are in flight; ``close(cancel)`` releases workers."""
+
+    slots: int
+
+    def submit(self, block: Block) -> _Result: ...
+
+    def close(self, cancel: bool) -> None: ...
+
+
+class _Ready:
+    def __init__(self, value: ChunkResult):
+        self._value = value
+
+    def result(self) -> ChunkResult:
+        return self._value
+
+
+class InProcessEngine:
+    """Scores each block in this process, at submit time.
+
+    While it runs, BLAS is limited to one thread when threadpoolctl is installed (the reason is at
+    :data:`WORKER_THREAD_ENV`); the previous limits come back on ``close``.
+    """
+
+    slots = 1
+
+    def __init__(self, options: BatchOptions, fmt: str):
+        self.options, self.fmt = options, fmt
+        self._limits: Any = None
+        try:
+            from threadpoolctl import threadpool_limits
+        except ImportError:
+            pass
+        else:
+            self._limits = threadpool_limits(limits=1, user_api="blas")
+
+    def submit(self, block: Block) -> _Ready:
+        return _Ready(run_block(block, self.options, self.fmt))
+
+    def close(self, cancel: bool) -> None:
+        if self._limits is not None:
+            self._limits.restore_original_limits()
+            self._limits = None
+
+
+_WORKER_OPTIONS: BatchOptions | None = None
+
+
+def _init_worker(options: BatchOptions) -> None:
+    global _WORKER_OPTIONS
+    _WORKER_OPTIONS = options
+    # Ctrl-C reaches the whole process group: the main process stops the run (and removes the
+    # partial output); workers just finish their chunk instead of printing tracebacks.
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def _pool_task(block: Block, fmt: str) -> ChunkResult:
+    assert _WORKER_OPTIONS is not None
+    return run_block(block, _WORKER_OPTIONS, fmt)
+
+
+#: Thread-pool sizes for the numerical libraries in worker processes. Parallelism is one worker
+#: per core; BLAS threads on top would oversubscribe the cores, and on the small matrix products
+#: of a chunk their spin-waiting costs more than it gains (measured: benchmarks/README.md).
+WORKER_THREAD_ENV = {"OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MKL_NUM_THREADS": "1"}
+
+
+def _mp_context() -> Any:
+    # forkserver: workers fork from a clean server process that has imported zwitter (and the
+    # libraries of a chunk) once, which is quick and safe in a multi-threaded parent. The server
+    # takes its environment when it starts, so the thread limits are set around its start (and
+    # only where the user has not set them). spawn where forkserver does not exist.
+    methods = multiprocessing.get_all_start_methods()
+    if "forkserver" not in methods:
+        return multiprocessing.get_context("spawn")
+    import multiprocessing.forkserver as forkserver
+
+    ctx = multiprocessing.get_context("forkserver")
+    ctx.set_forkserver_preload(["zwitter.batch", "pandas", "pyarrow", "pyarrow.csv"])
+    added = {k: v for k, v in WORKER_THREAD_ENV.items() if k not in os.environ}
+    os.environ.update(added)
+    # The server (and the workers it forks) ignore Ctrl-C from the start, also while importing:
+    # the main process handles the interrupt. An ignored signal stays ignored across exec.
+    try:
+        previous = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    except ValueError:  # not the main thread: leave signals alone
+        previous = None
+    try:
+        forkserver.ensure_running()
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGINT, previous)
+        for key in added:
+            os.environ.pop(key, None)
+    return ctx
+
+
+class ProcessEngine:
+    """Scores blocks in ``jobs`` worker processes; options are sent once per worker."""
+
+    def __init__(self, options: BatchOptions, fmt: str, jobs: int):
+        self.fmt = fmt
+        self.slots = 2 * jobs
+        self._pool = ProcessPoolExecutor(
+            max_workers=jobs,
+            mp_context=_mp_context(),
+            initializer=_init_worker,
+            initargs=(options,),
+        )
+
+    def submit(self, block: Block) -> Future[ChunkResult]:
+        return self._pool.submit(_pool_task, block, self.fmt)
+
+    def close(self, cancel: bool) -> None:
+        self._pool.shutdown(wait=True, cancel_futures=cancel)
+
+
+def _ordered(engine: Engine, blocks: Iterator[Block]) -> Iterator[ChunkResult]:
+    """Results in submission order, with at most ``engine.slots`` blocks in flight."""
+    pending: collections.deque[_Result] = collections.deque()
+    ok = False
+    try:
+        for block in blocks:
+            pending.append(engine.submit(block))
+            if len(pending) >= engine.slots:
+                yield pending.popleft().result()
+        while pending:
+            yield pending.popleft().result()
+        ok = True
+    finally:
+        engine.close(cancel=not ok)
+
+
+def resolve_jobs(jobs: int, where: str = "batch") -> int:
+    """``jobs`` as a worker count: 0 means one per CPU core."""
+    if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs < 0:
+        raise ParameterError("jobs", where, "a whole number >= 0 (0 = one per CPU core)", jobs)
+    return jobs or (os.cpu_count() or 1)
+
+
+def _engine(
+    options: BatchOptions, fmt: str, jobs: int, engine: str, scheduler: str | None
+) -> Engine:
+    if engine == "dask":
+        from .distributed import DaskEngine
+
+        return DaskEngine(options, fmt, scheduler=scheduler, n_workers=jobs)
+    if engine != "local":
+        raise ParameterError("engine", "batch", "'local' or 'dask'", engine)
+    if scheduler is not None:
+        raise ParameterError("scheduler", "batch", "given only with engine='dask'", scheduler)
+    return InProcessEngine(options, fmt) if jobs == 1 else ProcessEngine(options, fmt, jobs)
+
+
+def _as_paths(inputs: str | os.PathLike[str] | Iterable[str | os.PathLike[str]]) -> list[str]:
+    if isinstance(inputs, (str, os.PathLike)):
+        return [os.fspath(inputs)]
+    return [os.fspath(p) for p in inputs]
+
+
+def _label(path: str) -> str:
+    return "<stdin>" if path == "-" else path
+
+
+def _blocks(paths: list[str], formats: list[InputFormat], chunk_size: int) -> Iterator[Block]:
+    for index, (path, fmt) in enumerate(zip(paths, formats)):
+        yield from fmt.split(path, _label(path), index, chunk_size)
+
+
+def _formats(paths: list[str], input_format: str) -> list[InputFormat]:
+    if not paths:
+        raise ParameterError("inputs", "batch", "one or more input files", paths)
+    if paths.count("-") > 1:
+        raise ParameterError("inputs", "batch", "stdin ('-') at most once", paths)
+    formats = [input_format_for(p, input_format) for p in paths]
+    kinds = {f.name for f in formats}
+    if len({tuple(f.columns(make_options())) for f in formats}) > 1:
+        raise ParameterError(
+            "inputs", "batch", "inputs of one kind (their output columns differ)", sorted(kinds)
+        )
+    return formats
+
+
+def iter_score_fasta(
+    paths: str | os.PathLike[str] | Iterable[str | os.PathLike[str]],
+    ph: float | Iterable[float] = (7.0,),
+    scale: str | Path | Scale | None = None,
+    cys: str = "free",
+    conditions: Any = None,
+    *,
+    chunk_size: int = DEFAULT_CHUNK_SIZE,
+    jobs: int = 1,
+    engine: str = "local",
+    scheduler: str | None = None,
+    input_format: str = "auto",
+) -> Iterator[pd.DataFrame]:
+    """Score FASTA file(s) chunk by chunk: one DataFrame per chunk, records in input order.
+
+    The index of each frame is the record's position over all inputs (0-based). Memory stays
+    flat: only a few chunks are held at once. Raises InputFileError for a missing, truncated or
+    corrupt input (after yielding the chunks before the problem). Parameters as in
+    :func:`score_fasta`.
+    """
+    opts = make_options(ph, scale, cys, conditions, where="iter_score_fasta")
+    _check_chunk_size(chunk_size, "iter_score_fasta")
+    workers = resolve_jobs(jobs, "iter_score_fasta")
+    paths_ = _as_paths(paths)
+    formats = _formats(paths_, input_format)
+    run = _engine(opts, "frame", workers, engine, scheduler)
+    start = 0
+    for result in _ordered(run, _blocks(paths_, formats, chunk_size)):
+        frame = result.payload
+        frame.index = range(start, start + len(frame))
+        start += len(frame)
+        yield frame
+
+
+def score_fasta(
+    paths: str | os.PathLike[str] | Iterable[str | os.PathLike[str]],
+    ph: float | Iterable[float] = (7.0,),
+    scale: str | Path | Scale | None = None,
+    cys: str = "free",
+    conditions: Any = None,
+    *,
+    chunk_size: int = DEFAULT_CHUNK_SIZE,
+    jobs: int = 1,
+    engine: str = "local",
+    scheduler: str | None = None,
+    input_format: str = "auto",
+) -> pd.DataFrame:
+    """Score every record of FASTA file(s): one row per record, in input order.
+
+    Parameters
+    ----------
+    paths
+        A FASTA file (plain or gzip; ``"-"`` for stdin) or a list of them.
+    ph
+        pH value(s) for the ``charge_ph...`` columns.
+    scale
+        pKa scale (name, file, :class:`~zwitter.scales.Scale`; None = default).
+    cys
+        ``"free"`` or ``"bonded"`` (every cysteine in a disulfide).
+    conditions
+        Temperature / ionic strength: an object with ``apply(sites)`` (see module docstring).
+    chunk_size
+        Records per chunk.
+    jobs
+        Worker processes (1 = this process; 0 = one per CPU core).
+    engine, scheduler
+        ``"local"``, or ``"dask"`` with a scheduler address (None starts a local cluster).
+    input_format
+        ``"auto"`` (by suffix, then content) or a registered format name.
+
+    Examples
+    --------
+    >>> import zwitter.batch as zb, pathlib, tempfile
+    >>> f = pathlib.Path(tempfile.mkdtemp()) / "two.fasta"
+    >>> _ = f.write_text(">a first\\nDK\\n>b\\nMKW\\n")
+    >>> df = zb.score_fasta(f, ph=[7.0], scale="lehninger")
+    >>> list(df["id"]), list(df["description"])
+    (['a', 'b'], ['first', ''])
+    """
+    import pandas as pd
+
+    frames = list(
+        iter_score_fasta(
+            paths, ph, scale, cys, conditions, chunk_size=chunk_size, jobs=jobs, engine=engine,
+            scheduler=scheduler, input_format=input_format,
+        )
+    )  # fmt: skip
+    if not frames:
+        return empty_frame(make_options(ph, scale, cys, conditions))
+    return pd.concat(frames) if len(frames) > 1 else frames[0]
+
+
+# -- whole runs to a file -------------------------------------------------------------------------
+@dataclass(frozen=True)
+class BatchSummary:
+    """What a run did: records read, scored, with errors; where the output went; how long."""
+
+    records: int
+    scored: int
+    errors: int
+    output: str
+    seconds: float
+
+    def line(self) -> str:
+        rate = self.records / self.seconds if self.seconds > 0 else float("inf")
+        rate_text = f"{rate:,.0f} records/s" if math.isfinite(rate) else "instant"
+        return (
+            f"{self.records:,} records read, {self.scored:,} scored, {self.errors:,} with errors; "
+            f"wrote {self.output} ({self.seconds:.1f} s, {rate_text})"
+        )
+
+
+class Progress:
+    """Records, records/s and ETA on stderr, overwritten in place; only when stderr is a TTY."""
+
+    def __init__(self, total_bytes: int | None, stream: Any = None, enabled: bool | None = None):
+        self.stream = stream or sys.stderr
+        self.enabled = self.stream.isatty() if enabled is None else enabled
+        self.total = total_bytes
+        self.start = time.monotonic()
+        self._last = 0.0
+        self._shown = False
+
+    def update(self, records: int, done_bytes: int) -> None:
+        now = time.monotonic()
+        if not self.enabled or now - self._last < 0.5:
+            return
+        self._last = now
+        elapsed = max(now - self.start, 1e-9)
+        text = f"zwitter: {records:,} records, {records / elapsed:,.0f} records/s"
+        if self.total and done_bytes > 0:
+            fraction = min(done_bytes / self.total, 1.0)
+            eta = elapsed * (1 - fraction) / fraction if fraction > 0 else float("nan")
+            text += f", {100 * fraction:.0f}%, ETA {_duration(eta)}"
+        self.stream.write("\r" + text.ljust(79)[:79])
+        self.stream.flush()
+        self._shown = True
+
+    def finish(self) -> None:
+        if self._shown:
+            self.stream.write("\r" + " " * 79 + "\r")
+            self.stream.flush()
+
+
+def _duration(seconds: float) -> str:
+    if not math.isfinite(seconds):
+        return "?"
+    seconds = int(seconds)
+    return f"{seconds // 3600}:{seconds // 60 % 60:02d}:{seconds % 60:02d}"
+
+
+def _sizes(paths: list[str]) -> tuple[list[int], int | None]:
+    """Offsets of each input in the total, and the total (None if any size is unknown)."""
+    offsets, total = [], 0
+    known = True
+    for p in paths:
+        offsets.append(total)
+        try:
+            if p == "-":
+                raise OSError
+            total += os.stat(p).st_size
+        except OSError:
+            known = False
+    return offsets, total if known else None
+
+
+def score_files(
+    inputs: str | os.PathLike[str] | Iterable[str | os.PathLike[str]],
+    output: str | os.PathLike[str],
+    ph: float | Iterable[float] = (7.0,),
+    scale: str | Path | Scale | None = None,
+    cys: str = "free",
+    conditions: Any = None,
+    *,
+    chunk_size: int = DEFAULT_CHUNK_SIZE,
+    jobs: int = 1,
+    strict: bool = False,
+    engine: str = "local",
+    scheduler: str | None = None,
+    input_format: str = "auto",
+    progress: Progress | None = None,
+    on_record_error: Callable[[str, str], None] | None = None,
+) -> BatchSummary:
+    """Score input file(s) into one output file (format by suffix), atomically.
+
+    Rows are written as chunks finish, to a temporary file in the output's folder, renamed to
+    ``output`` only when every record is written. On any failure (a truncated input, ``strict``
+    and a bad record, an interrupt) the temporary file is removed and no output appears; an
+    existing ``output`` is left as it was.
+
+    ``on_record_error(source, error)`` is called for the first :data:`MAX_REPORTED_ERRORS` bad
+    records (the CLI prints them). With ``strict=True`` the first bad record raises
+    :class:`~zwitter.errors.InputFileError` naming it.
+    """
+    opts = make_options(ph, scale, cys, conditions, where="score_files")
+    _check_chunk_size(chunk_size, "score_files")
+    workers = resolve_jobs(jobs)
+    paths = _as_paths(inputs)
+    formats = _formats(paths, input_format)
+    out = Path(os.fspath(output))
+    fmt, compressed = output_format_for(out)
+    if not out.parent.is_dir():
+        raise ParameterError("output", "batch", "a path in an existing folder", str(out))
+    for p in paths:
+        if p != "-" and Path(p).exists() and out.exists() and os.path.samefile(p, out):
+            raise ParameterError("output", "batch", "a file other than the inputs", str(out))
+    columns = formats[0].columns(opts)
+    offsets, total = _sizes(paths)
+    progress = progress or Progress(total)
+    started = time.monotonic()
+    records = errors = 0
+    writer = _Writer(out, fmt, compressed, columns)
+    committed = False
+    try:
+        run = _engine(opts, fmt, workers, engine, scheduler)
+        for result in _ordered(run, _blocks(paths, formats, chunk_size)):
+            if strict and result.n_errors:
+                raise InputFileError(
+                    f"{result.errors[0]} (--strict stops at the first bad record)", result.source
+                )
+            if on_record_error is not None:
+                for text in result.errors[: max(0, MAX_REPORTED_ERRORS - errors)]:
+                    on_record_error(result.source, text)
+            writer.write(result.payload)
+            records += result.n_records
+            errors += result.n_errors
+            progress.update(records, offsets[result.input_index] + result.raw_pos)
+        writer.commit()
+        committed = True
+    finally:
+        progress.finish()
+        if not committed:
+            writer.abort()
+    return BatchSummary(records, records - errors, errors, str(out), time.monotonic() - started)

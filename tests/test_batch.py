@@ -1,0 +1,511 @@
+"""Batch scoring: same numbers as the single-sequence API, every record once and in order,
+atomic output, exit codes, masses against Biopython / pyteomics."""
+
+from __future__ import annotations
+
+import gzip
+import io
+import json
+import math
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+import zwitter
+from zwitter import batch as zb
+from zwitter.cli import app
+from zwitter.errors import InputFileError, ParameterError, ZwitterWarning
+from zwitter.fasta import read_fasta
+from zwitter.sites import SiteSet
+
+DATA = Path(__file__).resolve().parent / "data"
+PROTEINS = DATA / "batch_proteins.fasta"
+runner = CliRunner()
+
+
+def _single(seq: str, **kw: object) -> zwitter.Molecule:
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ZwitterWarning)
+        return zwitter.from_sequence(seq, **kw)  # type: ignore[arg-type]
+
+
+def _pi(m: zwitter.Molecule) -> float:
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ZwitterWarning)
+        value = m.isoelectric_point()
+    return math.nan if value is None else value
+
+
+# A mixed file: good records, an empty record, bad letters, text before the first header, a
+# header without id, Windows line endings, and a header-only record at the end (no final newline).
+MIXED = (
+    b"MKVLA\r\n"  # line 1: text before the first header
+    b">good1 first good record\r\n"  # line 2
+    b"MKWVTFISLL\r\nFLFSSAYS\r\n"
+    b">empty\r\n"  # line 5
+    b"\r\n"
+    b">bad_letters has a digit\r\n"  # line 7
+    b"MK1DE\r\n"
+    b">\r\n"  # line 9: no id
+    b"GGKK\r\n"
+    b">good2\r\n"  # line 11
+    b"DEKR\r\n"
+    b">header_only"  # line 13
+)
+MIXED_IDS = [
+    "(before first header, line 1)", "good1", "empty", "bad_letters", "(no id, line 9)", "good2",
+    "header_only",
+]  # fmt: skip
+MIXED_ERRORS = {
+    "(before first header, line 1)": "line 1: sequence text before the first '>' header",
+    "empty": "line 5: record 'empty': empty sequence",
+    "bad_letters": "line 7: record 'bad_letters': invalid residue: '1' at position 3",
+    "header_only": "line 13: record 'header_only': empty sequence",
+}
+
+
+@pytest.fixture
+def mixed(tmp_path: Path) -> Path:
+    path = tmp_path / "mixed.fasta"
+    path.write_bytes(MIXED)
+    return path
+
+
+# -- same numbers as the single-sequence API ------------------------------------------------------
+@pytest.mark.parametrize("scale", [None, "lehninger", "grimsley"])
+@pytest.mark.parametrize("cys", ["free", "bonded"])
+def test_every_record_matches_from_sequence(scale: str | None, cys: str) -> None:
+    ph = [3.0, 7.4, 11.0]
+    df = zb.score_fasta(PROTEINS, ph=ph, scale=scale, cys=cys, chunk_size=4)
+    records = list(read_fasta(PROTEINS))
+    assert list(df["id"]) == [r.id for r in records]
+    assert (df["error"] == "").all()
+    for row, rec in zip(df.itertuples(index=False), records):
+        m = _single(rec.sequence, scale=scale, cys=cys)
+        expected = _pi(m)
+        got = row.pI
+        assert (math.isnan(got) and math.isnan(expected)) or abs(got - expected) < 1e-6, rec.id
+        charges = df.loc[df["id"] == rec.id, [zb.charge_column(p) for p in ph]].to_numpy()[0]
+        assert np.allclose(charges, [m.charge(p) for p in ph], atol=1e-6, rtol=0), rec.id
+
+
+def test_jobs_and_chunk_sizes_do_not_change_a_number() -> None:
+    one = zb.score_fasta(PROTEINS, ph=[7.0], chunk_size=1000)
+    for chunk_size, jobs in ((1, 1), (3, 2), (5, 0)):
+        other = zb.score_fasta(PROTEINS, ph=[7.0], chunk_size=chunk_size, jobs=jobs)
+        pd.testing.assert_frame_equal(one, other)
+
+
+def test_composition_columns() -> None:
+    df = zb.score_fasta(PROTEINS).set_index("id")
+    ubq = "MQIFVKTLTGKTITLEVEPSDTIENVKAKIQDKEGIPPDQQRLIFAGKQLEDGRTLSDYNIQKESTLHLVLRLRGG"
+    row = df.loc["sp|P0CG48|UBIQ_HUMAN"]
+    assert row["length"] == len(ubq) == 76
+    assert [row[f"n_{r}"] for r in "DECYHKRU"] == [ubq.count(r) for r in "DECYHKRU"]
+    assert df.loc["substance_P", "length"] == 11  # the final '*' is not a residue
+    assert df.loc["lower_case", "length"] == 18
+    assert df.loc["selenopeptide", "n_U"] == 1
+    assert df.loc["with_unknown", "n_unknown"] == 1
+    assert "unknown residue" in df.loc["with_unknown", "warnings"]
+    assert df.loc["bradykinin", "description"] == "tab-separated description"
+    assert df.loc["sp|P0CG48|UBIQ_HUMAN", "description"].startswith("Ubiquitin")
+
+
+def test_conditions_object_is_applied_like_the_single_api() -> None:
+    class Shift:
+        """Duck-typed conditions: every pKa up by 0.3 (stands in for zwitter.Conditions)."""
+
+        def apply(self, sites: SiteSet) -> SiteSet:
+            return sites.with_pkas(sites.pkas + 0.3)
+
+    df = zb.score_fasta(PROTEINS, ph=[7.0], conditions=Shift())
+    plain = zb.score_fasta(PROTEINS, ph=[7.0])
+    for rec, got in zip(read_fasta(PROTEINS), df["pI"]):
+        expected = _pi(_single(rec.sequence, conditions=Shift()))
+        assert abs(got - expected) < 1e-6
+    assert not np.allclose(df["pI"], plain["pI"], equal_nan=True)
+
+
+def test_score_list_matches_score_fasta() -> None:
+    records = list(read_fasta(PROTEINS))
+    from_list = zb.score_list(
+        [r.sequence for r in records], [r.id for r in records], [r.description for r in records],
+        ph=[7.0], chunk_size=3,
+    )  # fmt: skip
+    from_file = zb.score_fasta(PROTEINS, ph=[7.0])
+    cols = [c for c in from_file.columns if c != "input"]
+    pd.testing.assert_frame_equal(from_list[cols], from_file[cols])
+
+
+def test_nucleotide_looking_sequences_get_a_warning() -> None:
+    df = zb.score_list(["ACGTTGCAACGTGGCCAATTGACGT", "ACGTACGT", "MKWVTFISLLFLFSSAYSACGT"])
+    assert "nucleotide" in df["warnings"][0]
+    assert df["warnings"][1] == ""  # too short to tell
+    assert df["warnings"][2] == ""
+
+
+# -- masses against reference libraries -----------------------------------------------------------
+def test_masses_match_pyteomics_and_biopython() -> None:
+    from Bio.SeqUtils import molecular_weight
+    from pyteomics import mass
+
+    df = zb.score_fasta(PROTEINS).set_index("id")
+    for rec in read_fasta(PROTEINS):
+        seq = rec.sequence.upper().rstrip("*")
+        row = df.loc[rec.id]
+        if set(seq) & set("BZX"):
+            continue
+        # pyteomics: NIST monoisotopic element masses (its std_aa_comp + H2O)
+        assert abs(row["monoisotopic_mass"] - mass.calculate_mass(sequence=seq)) < 1e-4, rec.id
+        if "U" not in seq:  # Biopython's Se weight is the pre-2013 78.96
+            # Biopython: average masses from the IUPAC atomic weights of 2007 era
+            assert abs(row["average_mass"] / molecular_weight(seq, "protein") - 1) < 2e-6, rec.id
+    assert math.isnan(df.loc["with_unknown", "average_mass"])
+    # B and Z: mean of D/N and E/Q (the table's policy); J has I/L's exact mass
+    from zwitter.masses import sequence_mass
+
+    assert sequence_mass("B") == pytest.approx((sequence_mass("D") + sequence_mass("N")) / 2)
+    assert sequence_mass("J", monoisotopic=True) == sequence_mass("L", monoisotopic=True)
+
+
+def test_residue_masses_match_unimod_values() -> None:
+    from zwitter.masses import residue_masses
+
+    # Unimod amino-acid monoisotopic residue masses (from memory, 5 decimals)
+    unimod = {"G": 57.02146, "A": 71.03711, "S": 87.03203, "P": 97.05276, "V": 99.06841,
+              "T": 101.04768, "C": 103.00919, "L": 113.08406, "N": 114.04293, "D": 115.02694,
+              "Q": 128.05858, "K": 128.09496, "E": 129.04259, "M": 131.04049, "H": 137.05891,
+              "F": 147.06841, "R": 156.10111, "Y": 163.06333, "W": 186.07931, "U": 150.95364,
+              "O": 237.14773}  # fmt: skip
+    masses = residue_masses()
+    for letter, value in unimod.items():
+        assert masses[letter].monoisotopic == pytest.approx(value, abs=1e-5), letter
+
+
+# -- nothing lost ---------------------------------------------------------------------------------
+@pytest.mark.parametrize("chunk_size", [1, 2, 3, 100])
+def test_mixed_file_every_record_once_in_order(mixed: Path, chunk_size: int) -> None:
+    frames = list(zb.iter_score_fasta(mixed, chunk_size=chunk_size))
+    n = len(MIXED_IDS)
+    assert [len(f) for f in frames] == [min(chunk_size, n - a) for a in range(0, n, chunk_size)]
+    df = pd.concat(frames)
+    assert list(df["id"]) == MIXED_IDS
+    assert list(df.index) == list(range(len(MIXED_IDS)))
+    errors = dict(zip(df["id"], df["error"]))
+    for ident in MIXED_IDS:
+        assert errors[ident] == MIXED_ERRORS.get(ident, ""), ident
+    good = df[df["error"] == ""]
+    assert list(good["id"]) == ["good1", "(no id, line 9)", "good2"]
+    assert good["pI"].notna().all()
+    bad = df[df["error"] != ""]
+    assert bad["pI"].isna().all() and bad["length"].isna().all() and bad["n_K"].isna().all()
+    # Windows line endings do not leak into sequences: same pI as the clean sequence
+    assert good["pI"].iloc[0] == pytest.approx(_pi(_single("MKWVTFISLLFLFSSAYS")), abs=1e-9)
+
+
+def test_several_inputs_keep_their_file_names(mixed: Path, tmp_path: Path) -> None:
+    gz = tmp_path / "proteins.fa.gz"
+    gz.write_bytes(gzip.compress(PROTEINS.read_bytes()))
+    df = zb.score_fasta([gz, mixed], chunk_size=4)
+    n = len(list(read_fasta(PROTEINS)))
+    assert list(df["input"]) == [str(gz)] * n + [str(mixed)] * len(MIXED_IDS)
+    assert list(df["id"][n:]) == MIXED_IDS
+
+
+def _truncated(tmp_path: Path) -> Path:
+    data = gzip.compress(PROTEINS.read_bytes() * 200)
+    path = tmp_path / "cut.fasta.gz"
+    path.write_bytes(data[: len(data) // 2])
+    return path
+
+
+def test_truncated_gzip_raises_a_clear_error(tmp_path: Path) -> None:
+    path = _truncated(tmp_path)
+    with pytest.raises(
+        InputFileError, match=r"cut\.fasta\.gz: the gzip stream ends early: the file is truncated"
+    ):
+        zb.score_fasta(path, chunk_size=50)
+    # the iterator hands out the complete chunks before the break, then raises
+    got = []
+    with pytest.raises(InputFileError):
+        for frame in zb.iter_score_fasta(path, chunk_size=50):
+            got.append(frame)
+    assert got and all(len(f) == 50 for f in got)
+
+
+def test_truncated_gzip_cli_exit_2_and_no_output(tmp_path: Path) -> None:
+    path = _truncated(tmp_path)
+    out = tmp_path / "scores.csv"
+    res = runner.invoke(app, ["batch", str(path), "-o", str(out), "--chunk-size", "50"])
+    assert res.exit_code == 2
+    assert "truncated" in res.stderr and "no output written" in res.stderr
+    assert "Traceback" not in res.output + res.stderr
+    assert len(res.stderr.strip().splitlines()) == 1
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["cut.fasta.gz"]
+
+
+def test_corrupt_gzip_is_an_input_error(tmp_path: Path) -> None:
+    data = bytearray(gzip.compress(PROTEINS.read_bytes()))
+    data[40:60] = b"\xff" * 20
+    path = tmp_path / "bad.fasta.gz"
+    path.write_bytes(bytes(data))
+    with pytest.raises(InputFileError, match="corrupt gzip data|truncated"):
+        zb.score_fasta(path)
+
+
+# -- CLI ------------------------------------------------------------------------------------------
+def _invoke(*args: str, input: bytes | None = None):  # noqa: A002
+    return runner.invoke(app, ["batch", *args], input=input)
+
+
+def test_cli_writes_every_format_with_the_same_numbers(mixed: Path, tmp_path: Path) -> None:
+    expected = zb.score_fasta([PROTEINS, mixed], ph=[5.0, 7.4])
+    readers = {
+        "csv": lambda p: pd.read_csv(p, keep_default_na=False, na_values=[""]),
+        "csv.gz": lambda p: pd.read_csv(p, keep_default_na=False, na_values=[""]),
+        "tsv": lambda p: pd.read_csv(p, sep="\t", keep_default_na=False, na_values=[""]),
+        "jsonl": lambda p: pd.read_json(p, lines=True),
+        "parquet": pd.read_parquet,
+    }
+    for suffix, read in readers.items():
+        out = tmp_path / f"scores.{suffix}"
+        res = _invoke(str(PROTEINS), str(mixed), "-o", str(out), "--ph", "5", "--ph", "7.4")
+        assert res.exit_code == 0, res.output
+        got = read(out)
+        assert list(got.columns) == list(expected.columns), suffix
+        assert list(got["id"]) == list(expected["id"]), suffix
+        for col in ("pI", "charge_ph5.0", "charge_ph7.4", "monoisotopic_mass"):
+            assert np.allclose(got[col].astype(float), expected[col], atol=1e-9, equal_nan=True), (
+                suffix,
+                col,
+            )
+        assert list(got["error"].fillna("")) == list(expected["error"]), suffix
+    assert sorted(p.name for p in tmp_path.iterdir() if p.name.startswith(".")) == []
+
+
+def test_cli_summary_and_record_errors_on_stderr(mixed: Path, tmp_path: Path) -> None:
+    out = tmp_path / "s.csv"
+    res = _invoke(str(mixed), "-o", str(out))
+    assert res.exit_code == 0  # per-record errors are rows, not a failure
+    assert res.stdout == ""
+    assert "7 records read, 3 scored, 4 with errors; wrote" in res.stderr
+    assert "warning: " + str(mixed) + ": line 7: record 'bad_letters'" in res.stderr
+    assert "\r" not in res.stderr  # no progress when stderr is not a terminal
+
+
+def test_cli_reads_stdin(tmp_path: Path) -> None:
+    out = tmp_path / "s.tsv"
+    res = _invoke("-", "-o", str(out), input=PROTEINS.read_bytes())
+    assert res.exit_code == 0, res.output
+    got = pd.read_csv(out, sep="\t")
+    assert set(got["input"]) == {"<stdin>"}
+    assert len(got) == len(list(read_fasta(PROTEINS)))
+
+
+def test_cli_strict_exit_2_and_no_output_left(mixed: Path, tmp_path: Path) -> None:
+    out = tmp_path / "scores.parquet"
+    out.write_bytes(b"an older result")
+    res = _invoke(str(PROTEINS), str(mixed), "-o", str(out), "--strict")
+    assert res.exit_code == 2
+    assert f"{mixed}: line 1: sequence text before the first '>' header" in res.stderr
+    assert out.read_bytes() == b"an older result"  # the old file is untouched
+    assert not [p for p in tmp_path.iterdir() if p.name.endswith(".partial")]
+    fresh = tmp_path / "fresh.csv"
+    assert _invoke(str(mixed), "-o", str(fresh), "--strict").exit_code == 2
+    assert not fresh.exists()
+    clean = tmp_path / "clean.csv"
+    assert _invoke(str(PROTEINS), "-o", str(clean), "--strict").exit_code == 0
+    assert clean.exists()
+
+
+@pytest.mark.parametrize(
+    "args, hint",
+    [
+        (["--ph", "17"], "--ph"),
+        (["--ph", "7", "--ph", "7.0"], "--ph"),
+        (["--chunk-size", "0"], "--chunk-size"),
+        (["--jobs", "-1"], "--jobs"),
+        (["--cys", "half"], "--cys"),
+        (["--engine", "spark"], "--engine"),
+        (["--engine", "local", "--scheduler", "tcp://127.0.0.1:8786"], "--scheduler"),
+        (["--input-format", "genbank"], "--input-format"),
+        (["-o", "{tmp}/out.xlsx"], "--output"),
+        (["-o", "{tmp}/no/such/dir/out.csv"], "--output"),
+    ],
+)
+def test_cli_bad_arguments_exit_2(args: list[str], hint: str, tmp_path: Path) -> None:
+    args = [a.replace("{tmp}", str(tmp_path)) for a in args]
+    if "-o" not in args:
+        args += ["-o", str(tmp_path / "out.csv")]
+    res = _invoke(str(PROTEINS), *args)
+    assert res.exit_code == 2, res.output
+    assert hint in res.output + res.stderr
+    assert [p.name for p in tmp_path.iterdir()] == []
+
+
+def test_cli_missing_input_and_unknown_scale_exit_2(tmp_path: Path) -> None:
+    out = tmp_path / "o.csv"
+    res = _invoke(str(tmp_path / "nope.fasta"), "-o", str(out))
+    assert res.exit_code == 2 and "does not exist" in res.output + res.stderr
+    res = _invoke(str(PROTEINS), "-o", str(out), "--scale", "no_such_scale")
+    assert res.exit_code == 2 and "unknown pKa scale" in res.stderr
+    assert not out.exists()
+
+
+def test_cli_write_failure_exit_1_and_no_output(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    def disk_full(self: object, payload: object) -> None:
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(zb._Writer, "write", disk_full)
+    out = tmp_path / "o.csv"
+    res = _invoke(str(PROTEINS), "-o", str(out))
+    assert res.exit_code == 1
+    assert "No space left on device" in res.stderr and "no output written" in res.stderr
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_unknown_suffix_is_sniffed(tmp_path: Path) -> None:
+    odd = tmp_path / "proteins.txt"
+    odd.write_bytes(PROTEINS.read_bytes())
+    assert len(zb.score_fasta(odd)) == len(list(read_fasta(PROTEINS)))
+    junk = tmp_path / "table.dat"
+    junk.write_text("a,b\n1,2\n")
+    with pytest.raises(InputFileError, match="cannot tell the input format"):
+        zb.score_fasta(junk)
+
+
+# -- library parameters, progress, extension points -----------------------------------------------
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        ({"ph": [20.0]}, r"The 'ph' parameter of iter_score_fasta must be a number in \[-2, 16\]"),
+        ({"ph": []}, "one or more pH values"),
+        ({"ph": [7.0, 7.0]}, "distinct pH values"),
+        ({"cys": "sometimes"}, "'cys' parameter"),
+        ({"chunk_size": 0}, "'chunk_size' parameter"),
+        ({"jobs": -2}, "'jobs' parameter"),
+        ({"conditions": 37.0}, "'conditions' parameter"),
+        ({"engine": "spark"}, "'engine' parameter"),
+    ],
+)
+def test_bad_library_parameters(kwargs: dict[str, object], match: str) -> None:
+    with pytest.raises(ParameterError, match=match):
+        zb.score_fasta(PROTEINS, **kwargs)  # type: ignore[arg-type]
+
+
+def test_charge_column_names() -> None:
+    assert [zb.charge_column(p) for p in (7, 7.4, 7.25, 10)] == [
+        "charge_ph7.0", "charge_ph7.4", "charge_ph7.25", "charge_ph10.0",
+    ]  # fmt: skip
+
+
+def test_progress_only_on_a_terminal() -> None:
+    class Tty(io.StringIO):
+        def isatty(self) -> bool:
+            return True
+
+    shown = Tty()
+    p = zb.Progress(total_bytes=1000, stream=shown)
+    p._last = -1.0
+    p.update(5000, 250)
+    p.finish()
+    assert "5,000 records" in shown.getvalue() and "records/s" in shown.getvalue()
+    assert "25%" in shown.getvalue() and "ETA" in shown.getvalue()
+    quiet = io.StringIO()
+    q = zb.Progress(total_bytes=1000, stream=quiet)
+    q._last = -1.0
+    q.update(5000, 250)
+    q.finish()
+    assert quiet.getvalue() == ""
+
+
+def test_in_flight_blocks_are_bounded() -> None:
+    class Counting:
+        slots = 3
+
+        def __init__(self) -> None:
+            self.open = 0
+            self.peak = 0
+            self.closed = False
+
+        def submit(self, block: zb.Block):
+            self.open += 1
+            self.peak = max(self.peak, self.open)
+            engine = self
+
+            class Pending:
+                def result(self) -> zb.ChunkResult:
+                    engine.open -= 1
+                    return zb.ChunkResult(block.source, 0, 0, 1, 0, (), None)
+
+            return Pending()
+
+        def close(self, cancel: bool) -> None:
+            self.closed = True
+
+    engine = Counting()
+    blocks = (zb.Block(str(i), 0, b"", 1, 0, zb._score_fasta_block) for i in range(20))
+    order = [r.source for r in zb._ordered(engine, blocks)]
+    assert order == [str(i) for i in range(20)]
+    assert engine.peak == 3 and engine.closed
+
+
+def test_a_new_input_format_plugs_in(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """The extension point SMILES batches will use: a splitter plus a block scorer."""
+
+    def split(path: str, label: str, index: int, chunk_size: int):
+        lines = Path(path).read_bytes().splitlines(keepends=True)
+        for a in range(0, len(lines), chunk_size):
+            yield zb.Block(label, index, b"".join(lines[a : a + chunk_size]), a + 1, 0, score_lines)
+
+    fmt = zb.InputFormat("lines", (".seqs",), split, zb.output_columns, lambda head: False)
+    monkeypatch.setitem(zb._FORMATS, "lines", fmt)
+    path = tmp_path / "three.seqs"
+    path.write_text("DK\nMKW\nGG\n")
+    df = zb.score_fasta(path, chunk_size=2)
+    assert list(df["id"]) == ["line1", "line2", "line3"]
+    assert df["pI"].notna().all()
+
+
+def score_lines(block: zb.Block, options: zb.BatchOptions) -> pd.DataFrame:
+    seqs = block.data.decode().split()
+    ids = [f"line{block.first_line + i}" for i in range(len(seqs))]
+    return zb.score_chunk(seqs, ids, None, options, input_name=block.source)
+
+
+def test_jsonl_rows_are_valid_json(tmp_path: Path, mixed: Path) -> None:
+    out = tmp_path / "s.jsonl"
+    assert _invoke(str(mixed), "-o", str(out)).exit_code == 0
+    rows = [json.loads(line) for line in out.read_text().splitlines()]
+    assert [r["id"] for r in rows] == MIXED_IDS
+    assert rows[2]["pI"] is None and rows[1]["pI"] > 0
+
+
+def test_odd_bytes_become_error_rows_not_crashes(tmp_path: Path) -> None:
+    path = tmp_path / "odd.fasta"
+    path.write_bytes(
+        b">nul\nMK\x00DE\n>latin1\nMK\xe9DE\n>stop_inside\nMK*DE\n>stop_end\nMKDE*\n>fine\nMKDE\n"
+    )
+    df = zb.score_fasta(path, chunk_size=2).set_index("id")
+    assert df.loc["nul", "error"] == "line 1: record 'nul': invalid residue: '\\x00' at position 3"
+    assert (
+        df.loc["latin1", "error"]
+        == "line 3: record 'latin1': invalid residue: '\ufffd' at position 3"
+    )
+    assert "'*' (stop) is allowed only at the end" in df.loc["stop_inside", "error"]
+    assert df.loc["stop_end", "error"] == "" and df.loc["stop_end", "length"] == 4
+    assert df.loc["stop_end", "pI"] == df.loc["fine", "pI"]
+
+
+def test_old_mac_line_endings(tmp_path: Path) -> None:
+    path = tmp_path / "mac.fasta"
+    path.write_bytes(b">a one\rMKW\rVT\r>b\rDEK\r")
+    df = zb.score_fasta(path)
+    assert list(df["id"]) == ["a", "b"] and list(df["description"]) == ["one", ""]
+    assert list(df["length"]) == [5, 3]
