@@ -127,3 +127,45 @@ def test_console_script_runs() -> None:
     )
     assert proc.returncode == 0, proc.stderr
     assert "MKWV" in proc.stdout
+
+
+def test_conditions_options_match_the_library() -> None:
+    cold = zwitter.Conditions(temperature=4.0, ionic_strength=0.15)
+    res = run("charge", "MKWVDEKHR", "--ph", "7.4", "--temp", "4", "--ionic-strength", "0.15",
+              "-f", "json")  # fmt: skip
+    assert res.exit_code == 0, res.output
+    expected = round(zwitter.from_sequence("MKWVDEKHR", conditions=cold).charge(7.4), 3)
+    assert json.loads(res.stdout)[0]["charge@pH7.4"] == expected
+    assert expected != round(zwitter.from_sequence("MKWVDEKHR").charge(7.4), 3)
+    bad = run("pi", "MKW", "--temp", "120")
+    assert bad.exit_code == 2 and "'temperature'" in bad.stderr
+
+
+@pytest.mark.parametrize(
+    "args",
+    [
+        ["pi", "MKWVDEK", "KKDE"],
+        ["charge", "MKWVDEK", "--ph", "7"],
+        ["forms", "DKHKE"],
+        ["plan", "MKWVDEKKKRRHKK", "-c", "DDEEDDKE"],
+    ],
+)
+def test_plot_option_writes_the_figure(tmp_path, args: list[str]) -> None:
+    path = tmp_path / "figure.png"
+    res = run(*args, "--plot", str(path), "-f", "csv")
+    assert res.exit_code == 0, res.output
+    assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_batch_figures_and_conditions(tmp_path, test_data_dir) -> None:
+    out = tmp_path / "scores.csv"
+    gel = tmp_path / "gel.svg"
+    res = run("batch", str(test_data_dir / "batch_proteins.fasta"), "-o", str(out),
+              "--temp", "4", "--plot", str(gel), "--histogram", str(tmp_path / "h.pdf"),
+              "--fractions", "4,5,6,7,8")  # fmt: skip
+    assert res.exit_code == 0, res.output
+    assert "<svg" in gel.read_text()[:500]
+    assert (tmp_path / "h.pdf").read_bytes()[:4] == b"%PDF"
+    bad = run("batch", str(test_data_dir / "batch_proteins.fasta"), "-o", str(out),
+              "--plot", str(tmp_path / "gel.bmp"))  # fmt: skip
+    assert bad.exit_code == 2

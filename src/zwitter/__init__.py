@@ -1,8 +1,9 @@
 """zwitter: how biomolecules carry charge in water.
 
-For a peptide or protein sequence, zwitter finds the ionizable groups, assigns their pKa values
-from a published scale and computes at any pH the populations of protonation forms, the dominant
-form, the average net charge, the macroscopic pKa values and the isoelectric point.
+For a peptide or protein sequence (plain, FASTA, ProForma) or a small molecule (SMILES), zwitter
+finds the ionizable groups, assigns their pKa values from published data and computes at any pH
+the populations of protonation forms, the dominant form, the average net charge, the macroscopic
+pKa values and the isoelectric point, at the temperature and ionic strength of a real buffer.
 
 >>> import zwitter
 >>> m = zwitter.from_sequence("MKWVTFISLLFLFSSAYS")
@@ -12,6 +13,7 @@ form, the average net charge, the macroscopic pKa values and the isoelectric poi
 
 from __future__ import annotations
 
+from .batch import BatchSummary, iter_score_fasta, score_fasta, score_files, score_list
 from .buffers import (
     Recipe,
     buffer_pkas,
@@ -22,6 +24,7 @@ from .buffers import (
     suitable_buffers,
 )
 from .conditions import Conditions
+from .distributed import score_dask_bag, score_dask_dataframe
 from .equilibrium import DominantForm
 from .errors import (
     BufferLookupError,
@@ -61,6 +64,13 @@ def __getattr__(name: str) -> str:
 
 __all__ = [
     "__version__",
+    "BatchSummary",
+    "iter_score_fasta",
+    "score_dask_bag",
+    "score_dask_dataframe",
+    "score_fasta",
+    "score_files",
+    "score_list",
     "Conditions",
     "Plan",
     "Recipe",

@@ -6,10 +6,12 @@ builds the app and maps errors to exit codes (2 for bad input, 1 for failures).
 
 from __future__ import annotations
 
+from . import (
+    batch_cmd,  # noqa: F401
+    buffer_cmds,  # noqa: F401
+    report_cmds,  # noqa: F401
+    sequence_cmds,  # noqa: F401  (registers pi, charge, scales, demo)
+)
 from ._app import app, main
-from . import sequence_cmds  # noqa: F401  (registers pi, charge, scales, demo)
-from . import batch_cmd  # noqa: F401
-from . import buffer_cmds  # noqa: F401
-from . import report_cmds  # noqa: F401
 
 __all__ = ["app", "main"]

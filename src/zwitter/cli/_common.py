@@ -53,8 +53,62 @@ TempOpt = Annotated[
 ]
 IonicOpt = Annotated[
     float | None,
-    typer.Option("--ionic-strength", help="Ionic strength in mol/L (default: 0, infinite dilution)."),
+    typer.Option(
+        "--ionic-strength", help="Ionic strength in mol/L (default: 0, infinite dilution)."
+    ),
 ]
+
+
+PlotOpt = Annotated[
+    Path | None,
+    typer.Option(
+        "--plot", help="Also draw a figure to this file (.png, .svg or .pdf).", dir_okay=False
+    ),
+]
+
+#: At most this many molecules are drawn on one charge plot (the table has them all).
+PLOT_LIMIT = 12
+
+
+def plot_charges(
+    items: list[tuple[str, str, str]], path: Path, scale: Any, *, cys: str, kind: str,
+    conditions: Any,
+) -> None:  # fmt: skip
+    """Charge curves of the (good) inputs on one figure, written to ``path``."""
+    import warnings
+
+    from ..inputs import molecule_from_text
+    from ..plots import charge_plot
+
+    mols, names = [], []
+    for ident, text, error in items:
+        if error or len(mols) >= PLOT_LIMIT:
+            continue
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                mols.append(
+                    molecule_from_text(text, kind, scale=scale, cys=cys, conditions=conditions)
+                )
+            names.append(ident)
+        except ZwitterError:
+            continue
+    if not mols:
+        fail("nothing to plot: every input has an error")
+    if len(items) > PLOT_LIMIT:
+        sys.stderr.write(f"zwitter: the plot shows the first {PLOT_LIMIT} inputs\n")
+    save_plot(lambda: charge_plot(mols, names=names, path=path), path)
+
+
+def save_plot(draw: Any, path: Path) -> None:
+    """Run a plotting call; a bad file type or unwritable path is one line and exit 2."""
+    try:
+        draw()
+    except ZwitterError as exc:
+        fail(str(exc))
+    except (OSError, ValueError) as exc:
+        fail(f"cannot write the figure {str(path)!r}: {exc}")
+    sys.stderr.write(f"zwitter: wrote {path}\n")
 
 
 def conditions_from(temp: float | None, ionic_strength: float | None) -> Any:

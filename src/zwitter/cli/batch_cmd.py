@@ -11,12 +11,13 @@ from __future__ import annotations
 import enum
 import sys
 from pathlib import Path
-from typing import Annotated
+from typing import Annotated, Any
 
 import typer
 
 from ..errors import ParameterError, ZwitterError
 from ._app import EXIT_BAD_INPUT, EXIT_FAILURE, app, fail
+from ._common import IonicOpt, TempOpt, conditions_from, save_plot
 
 #: Same as zwitter.batch.DEFAULT_CHUNK_SIZE (not imported here: the CLI starts without numpy).
 _DEFAULT_CHUNK_SIZE = 10_000
@@ -99,6 +100,27 @@ def batch(
         str,
         typer.Option("--input-format", help="auto (by file name, then content) or fasta."),
     ] = "auto",
+    temp: TempOpt = None,
+    ionic_strength: IonicOpt = None,
+    plot: Annotated[
+        Path | None,
+        typer.Option(
+            "--plot",
+            dir_okay=False,
+            help="Also draw pI against mass (a virtual 2-D gel) to this .png/.svg/.pdf file.",
+        ),
+    ] = None,
+    histogram: Annotated[
+        Path | None,
+        typer.Option("--histogram", dir_okay=False, help="Also draw a pI histogram to this file."),
+    ] = None,
+    fractions: Annotated[
+        str | None,
+        typer.Option(
+            "--fractions",
+            help="IEF fraction boundaries for --histogram, e.g. 4,5,6,7 (pH values).",
+        ),
+    ] = None,
 ) -> None:
     """Score every record of FASTA files: masses, pI, charge at each --ph, ionizable residues.
 
@@ -138,8 +160,23 @@ def batch(
             import pyarrow  # noqa: F401
         except ImportError:
             fail("Parquet output needs pyarrow: pip install 'zwitter[parquet]'")
+    for figure in (plot, histogram):
+        if figure is not None and figure.suffix.lower() not in (".png", ".svg", ".pdf"):
+            raise typer.BadParameter(
+                f"{str(figure)!r} must end in .png, .svg or .pdf", param_hint="--plot/--histogram"
+            )
+    bounds: list[float] | None = None
+    if fractions is not None:
+        try:
+            bounds = sorted(float(x) for x in fractions.split(",") if x.strip())
+        except ValueError:
+            raise typer.BadParameter(
+                f"{fractions!r} is not a comma-separated list of pH values",
+                param_hint="--fractions",
+            ) from None
+    conditions = conditions_from(temp, ionic_strength)
     try:
-        options = zb.make_options(ph, scale, cys.value, where="batch")
+        options = zb.make_options(ph, scale, cys.value, conditions, where="batch")
     except ParameterError as exc:
         raise typer.BadParameter(str(exc), param_hint=f"--{exc.parameter}") from None
     except ZwitterError as exc:  # unknown scale, bad scale file
@@ -155,7 +192,7 @@ def batch(
 
     try:
         summary = zb.score_files(
-            inputs, output, options.ph, options.scale, options.cys,
+            inputs, output, options.ph, options.scale, options.cys, conditions,
             chunk_size=chunk_size, jobs=jobs, strict=strict, engine=engine_name,
             scheduler=scheduler, input_format=input_format, on_record_error=report,
         )  # fmt: skip
@@ -169,8 +206,31 @@ def batch(
     except OSError as exc:  # writing the output, reaching the scheduler
         fail(f"{exc}; no output written", EXIT_FAILURE)
     sys.stderr.write(f"zwitter: {summary.line()}\n")
+    if plot is not None or histogram is not None:
+        _figures(output, plot, histogram, bounds)
     if summary.errors > zb.MAX_REPORTED_ERRORS:
         sys.stderr.write(
             f"zwitter: {summary.errors - zb.MAX_REPORTED_ERRORS:,} more records with errors are "
             "not listed here: see the 'error' column\n"
         )
+
+
+def _figures(output: Path, plot: Path | None, histogram: Path | None, bounds: Any) -> None:
+    """Gel-like map and pI histogram from the written output (three columns read back)."""
+    import pandas as pd
+
+    from ..plots import gel_plot, pi_histogram
+
+    suffix = output.suffix.lower()
+    columns = ["id", "pI", "average_mass"]
+    if suffix == ".parquet":
+        frame = pd.read_parquet(output, columns=columns)
+    elif suffix == ".jsonl" or output.name.lower().endswith(".jsonl.gz"):
+        frame = pd.read_json(output, lines=True)[columns]
+    else:
+        sep = "\t" if ".tsv" in output.name.lower() else ","
+        frame = pd.read_csv(output, sep=sep, usecols=columns)
+    if plot is not None:
+        save_plot(lambda: gel_plot(frame, path=plot), plot)
+    if histogram is not None:
+        save_plot(lambda: pi_histogram(frame, fractions=bounds, path=histogram), histogram)

@@ -270,6 +270,14 @@ def plan(
         CysMode, typer.Option("--cys", help="Cysteines free or all bonded.")
     ] = CysMode.free,
     fmt: FormatOpt = OutputFormat.table,
+    plot: Annotated[
+        Path | None,
+        typer.Option(
+            "--plot",
+            dir_okay=False,
+            help="Also draw the charge curves with the binding windows (.png/.svg/.pdf).",
+        ),
+    ] = None,
 ) -> None:
     """Ion-exchange plan: exchanger, pH window, buffers; elution order against contaminants."""
     from ..purification import plan_ion_exchange
@@ -306,6 +314,11 @@ def plan(
 
     with _cautions():
         result = _run(build)
+    if plot is not None:
+        from ..plots import plan_plot
+        from ._common import save_plot
+
+        save_plot(lambda: plan_plot(result, path=plot), plot)
     summary = _rows(result.to_frame())
     keys = ["buffer", "step", "pka", "distance", "forms_present"]
     if fmt is not OutputFormat.table:

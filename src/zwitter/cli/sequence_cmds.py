@@ -16,11 +16,14 @@ from ._common import (
     InputKind,
     IonicOpt,
     KindOpt,
+    PlotOpt,
     ScaleOpt,
     TempOpt,
     conditions_from,
     get_scale_or_fail,
+    plot_charges,
     read_items,
+    save_plot,
     score_items,
 )
 from ._output import CAUTION, OutputFormat, emit, rounded
@@ -54,17 +57,18 @@ def pi(
     temp: TempOpt = None,
     ionic_strength: IonicOpt = None,
     fmt: FormatOpt = OutputFormat.table,
+    plot: PlotOpt = None,
 ) -> None:
     """Isoelectric point of each input (sequence, ProForma or SMILES)."""
     sc = get_scale_or_fail(scale)
     cond = conditions_from(temp, ionic_strength)
-    rows, bad = score_items(
-        read_items(sequences, input_file), [7.0], sc, cys=cys.value, kind=kind.value,
-        conditions=cond,
-    )  # fmt: skip
+    items = read_items(sequences, input_file)
+    rows, bad = score_items(items, [7.0], sc, cys=cys.value, kind=kind.value, conditions=cond)
     for r in rows:
         r.pop("charge@pH7")
     emit(rows, fmt, title=f"Isoelectric point (scale {sc.key}{_cond_text(cond)})", caption=CAUTION)
+    if plot is not None:
+        plot_charges(items, plot, sc, cys=cys.value, kind=kind.value, conditions=cond)
     if bad:
         raise typer.Exit(EXIT_BAD_INPUT)
 
@@ -86,15 +90,16 @@ def charge(
     temp: TempOpt = None,
     ionic_strength: IonicOpt = None,
     fmt: FormatOpt = OutputFormat.table,
+    plot: PlotOpt = None,
 ) -> None:
     """Average net charge of each input at one or more pH values."""
     sc = get_scale_or_fail(scale)
     cond = conditions_from(temp, ionic_strength)
-    rows, bad = score_items(
-        read_items(sequences, input_file), ph, sc, cys=cys.value, kind=kind.value,
-        conditions=cond,
-    )  # fmt: skip
+    items = read_items(sequences, input_file)
+    rows, bad = score_items(items, ph, sc, cys=cys.value, kind=kind.value, conditions=cond)
     emit(rows, fmt, title=f"Net charge (scale {sc.key}{_cond_text(cond)})", caption=CAUTION)
+    if plot is not None:
+        plot_charges(items, plot, sc, cys=cys.value, kind=kind.value, conditions=cond)
     if bad:
         raise typer.Exit(EXIT_BAD_INPUT)
 
@@ -110,6 +115,7 @@ def forms(
     ionic_strength: IonicOpt = None,
     top: Annotated[int, typer.Option("--top", help="How many forms to list.", min=1)] = 5,
     fmt: FormatOpt = OutputFormat.table,
+    plot: PlotOpt = None,
 ) -> None:
     """Dominant protonation form at a pH: the state of every group and the top forms."""
     import json
@@ -156,6 +162,10 @@ def forms(
             form_title = f"Most populated microstates at pH {ph:g}"
     except ZwitterError as exc:
         fail(str(exc))
+    if plot is not None:
+        from ..plots import species_plot
+
+        save_plot(lambda: species_plot(mol, path=plot), plot)
     bonded = list(mol.info.get("bonded_cysteines", ()))
     facts = {
         "input": mol.name, "kind": mol.kind, "ph": ph, "scale": mol.scale,
@@ -196,8 +206,12 @@ def scales(
              "title": s.title} | ({"citation": s.citation} if fmt is not OutputFormat.table else {})
             for s in list_scales()
         ]  # fmt: skip
-        emit(rows, fmt, title="Packaged pKa scales",
-             caption="`zwitter scales KEY` shows one scale's values with the source of each.")
+        emit(
+            rows,
+            fmt,
+            title="Packaged pKa scales",
+            caption="`zwitter scales KEY` shows one scale's values with the source of each.",
+        )
         return
     try:
         sc = get_scale(key)
