@@ -47,6 +47,7 @@ from .purification import Plan, elution_order, plan_ion_exchange, separation_ph
 from .scales import DEFAULT_SCALE, Scale, get_scale, list_scales, load_scale_file, scale_names
 from .sequence import from_sequence
 from .sites import Site, SiteSet, permanent_charge
+from .structure import SmilesRecord, StructureForm, StructureMolecule, from_smiles, iter_smiles_file
 
 
 def __getattr__(name: str) -> str:
@@ -92,6 +93,11 @@ __all__ = [
     "detect_kind",
     "from_proforma",
     "from_sequence",
+    "from_smiles",
+    "iter_smiles_file",
+    "SmilesRecord",
+    "StructureForm",
+    "StructureMolecule",
     "list_modifications",
     "molecule_from_text",
     "parse_proforma",

@@ -95,6 +95,10 @@ def molecule_from_text(text: str, kind: str = "auto", **options: Any) -> Molecul
 
 
 def _mostly_residues(text: str) -> bool:
-    letters = [c for c in text if not c.isspace()]
-    residues = sum(c in "ACDEFGHIKLMNPQRSTVWYUOBZJX" for c in letters)
-    return bool(letters) and residues >= 0.8 * len(letters)
+    """Upper-case residue letters with a few stray characters and none of SMILES' bond, branch
+    or bracket marks: a sequence with a typo rather than a SMILES."""
+    chars = [c for c in text if not c.isspace()]
+    if not chars or any(c in "()[]=#@+\\/.%" for c in chars):
+        return False
+    residues = sum(c in "ACDEFGHIKLMNPQRSTVWYUOBZJX" for c in chars)
+    return residues >= 2 and residues >= 0.6 * len(chars)

@@ -11,6 +11,7 @@ from . import (
     buffer_cmds,  # noqa: F401
     report_cmds,  # noqa: F401
     sequence_cmds,  # noqa: F401  (registers pi, charge, scales, demo)
+    structure_cmds,  # noqa: F401
 )
 from ._app import app, main
 

@@ -208,9 +208,9 @@ def score_items(
 
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
-                mol = molecule_from_text(
-                    text, kinds[i], scale=scale, cys=cys, conditions=conditions
-                )
+                # the user's kind ("auto" by default), so that a mistyped sequence read as
+                # SMILES is reported as a sequence error
+                mol = molecule_from_text(text, kind, scale=scale, cys=cys, conditions=conditions)
                 pi = mol.isoelectric_point()
                 charges = mol.charge(np.asarray(ph, dtype=float))
             rows[i] = {

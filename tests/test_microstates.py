@@ -1,0 +1,241 @@
+"""Coupled sites: exact microstate enumeration, binding polynomial, mean field, calibration.
+
+Reference values: the statistical factor of two identical independent sites (log10 4, exact
+mathematics); the core engine's independent-site solver (zwitter.equilibrium); the CRC Handbook
+macroscopic pKa values of the homologous series the coupling is calibrated on
+(data/reference/small_molecule_pka.csv, role calibration).
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from zwitter import equilibrium as eq
+from zwitter.errors import ZwitterWarning
+from zwitter.microstates import (
+    MAX_EXACT_STATES,
+    Coupling,
+    Microstates,
+    PairTable,
+    coupling_matrix,
+    default_coupling,
+)
+from zwitter.sites import Site, SiteSet
+
+REFERENCE = Path(__file__).resolve().parents[1] / "data" / "reference" / "small_molecule_pka.csv"
+
+
+def _pairs(k: int, w: float) -> PairTable:
+    m = np.full((k, k), w)
+    np.fill_diagonal(m, 0.0)
+    return PairTable(m.copy(), m.copy(), m.copy())
+
+
+# -- exact mathematics ---------------------------------------------------------------------------
+def test_two_identical_independent_sites_are_split_by_log10_4() -> None:
+    # Exact: K1 = 2 k, K2 = k / 2 for two equivalent non-interacting sites.
+    ms = Microstates([[4.0], [4.0]], [1, 1], [0, 0])
+    p1, p2 = ms.macroscopic_pkas()
+    assert p1 == pytest.approx(4.0 - math.log10(2), abs=1e-12)
+    assert p2 == pytest.approx(4.0 + math.log10(2), abs=1e-12)
+
+
+def test_symmetric_coupled_pair_spread_is_w_plus_log10_4() -> None:
+    # Two identical acids with repulsion w between the two anions: pK2 - pK1 = w + log10 4.
+    w = 1.3
+    ms = Microstates([[4.0], [4.0]], [1, 1], [0, 0], _pairs(2, w))
+    p1, p2 = ms.macroscopic_pkas()
+    assert p2 - p1 == pytest.approx(w + 2 * math.log10(2), abs=1e-12)
+
+
+def test_single_multistep_site_is_henderson_hasselbalch() -> None:
+    # Phosphoric acid as one three-step site equals the core engine's independent-site answer.
+    steps = (2.15, 7.20, 12.35)
+    ms = Microstates([list(steps)], [3], [0])
+    sites = SiteSet.from_sites([Site("phosphate", steps, 0)])
+    ph = np.linspace(0, 14, 57)
+    assert np.allclose(ms.charge(ph), eq.net_charge(ph, sites), atol=1e-12)
+    assert np.allclose(ms.macroscopic_pkas(), steps, atol=1e-12)
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    pkas=st.lists(st.floats(0.0, 14.0), min_size=1, max_size=5),
+    charges=st.lists(st.sampled_from([0, 1]), min_size=5, max_size=5),
+)
+def test_uncoupled_sites_match_the_core_engine(pkas: list[float], charges: list[int]) -> None:
+    # Without coupling the microstate answer is the independent-site binding polynomial.
+    k = len(pkas)
+    ms = Microstates([[p] for p in pkas], [1] * k, charges[:k])
+    sites = SiteSet.from_sites([Site(f"s{i}", (p,), charges[i]) for i, p in enumerate(pkas)])
+    assert np.allclose(ms.macroscopic_pkas(), eq.macroscopic_pkas(sites), atol=1e-9)
+    ph = np.linspace(-1, 15, 33)
+    assert np.allclose(ms.charge(ph), eq.net_charge(ph, sites), atol=1e-9)
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    pkas=st.lists(st.floats(-1.0, 15.0), min_size=1, max_size=6),
+    w=st.floats(0.0, 3.0),
+    ph=st.floats(-2.0, 16.0),
+)
+def test_populations_sum_to_one_and_charge_falls(pkas: list[float], w: float, ph: float) -> None:
+    k = len(pkas)
+    charges = [i % 2 for i in range(k)]
+    ms = Microstates([[p] for p in pkas], [1] * k, charges, _pairs(k, w))
+    assert ms.populations(ph).sum() == pytest.approx(1.0, abs=1e-9)
+    assert ms.level_populations(ph).sum() == pytest.approx(1.0, abs=1e-9)
+    grid = np.linspace(-2, 16, 73)
+    z = ms.charge(grid)
+    assert np.all(np.diff(z) <= 1e-12)  # charge never rises with pH
+    lost = ms.site_lost(grid)
+    assert np.all((lost >= -1e-12) & (lost <= 1 + 1e-12))
+
+
+def test_top_and_dominant_agree_and_states_are_sorted() -> None:
+    ms = Microstates([[3.0], [9.0]], [1, 1], [0, 1], _pairs(2, 1.0))
+    states, pops = ms.top(6.0, 4)
+    assert list(pops) == sorted(pops, reverse=True)
+    state, pop = ms.dominant(6.0)
+    assert tuple(state) == tuple(states[0]) and pop == pytest.approx(pops[0])
+    assert ms.state_charge(states[:1])[0] == 0.0  # zwitterion: COO- and NH3+
+
+
+def test_site_without_steps_is_rejected() -> None:
+    with pytest.raises(ValueError, match="at least one pKa step"):
+        Microstates([[4.0]], [0], [0])
+
+
+# -- coupling ------------------------------------------------------------------------------------
+def test_coupling_strength_falls_with_distance_and_ignores_disconnected_atoms() -> None:
+    c = default_coupling()
+    d = np.array([2.0, 3.0, 4.0, 6.0, 10.0, np.inf])
+    for pair in ("anion", "cation", "opposite"):
+        w = c.strength(d, pair)
+        assert np.all(np.diff(w) < 0) or w[-1] == 0.0
+        assert w[-1] == 0.0
+        assert w[1] == pytest.approx(getattr(c, pair)[0])  # amplitude at d0 = 3 bonds
+
+
+def test_coupling_matrix_counts_paths_and_zeroes_the_diagonal() -> None:
+    c = Coupling((2.0, 0.5), (2.0, 0.5), (1.0, 0.5), 3.0)
+    dist = np.array([[0.0, 3.0], [3.0, 0.0]])
+    one = coupling_matrix(dist, np.ones((2, 2)), c)
+    two = coupling_matrix(dist, np.full((2, 2), 2.0), c)
+    assert one.anion[0, 0] == 0.0 and one.anion[0, 1] == pytest.approx(2.0)
+    assert two.anion[0, 1] == pytest.approx(4.0)  # both ways round a ring
+    many = coupling_matrix(dist, np.full((2, 2), 9.0), c)
+    assert many.anion[0, 1] == pytest.approx(6.0)  # capped at three paths
+
+
+def test_permanent_charge_shifts_a_neighbouring_acid() -> None:
+    # A fixed +1 three bonds from an acid stabilises its anion: the pKa falls by w(3).
+    field = PairTable(np.array([[0.0]]), np.array([[0.0]]), np.array([[1.5]]))
+    ms = Microstates([[4.0]], [1], [0], fixed=[1.0], field=field, fixed_charge=1.0)
+    assert ms.macroscopic_pkas()[0] == pytest.approx(2.5)
+    assert ms.charge(14.0) == pytest.approx(0.0, abs=1e-9)
+
+
+# -- mean field ----------------------------------------------------------------------------------
+def test_mean_field_beyond_the_limit_warns_and_stays_close_to_exact() -> None:
+    rng = np.random.default_rng(7)
+    k = 10
+    pkas = rng.uniform(3, 11, k)
+    charges = [i % 2 for i in range(k)]
+    d = np.abs(np.subtract.outer(np.arange(k), np.arange(k))) * 4.0 + 3.0
+    pairs = coupling_matrix(d, np.ones((k, k)), default_coupling())
+    exact = Microstates(pkas[:, None], [1] * k, charges, pairs)
+    assert exact.exact
+    with pytest.warns(ZwitterWarning, match="mean-field"):
+        mf = Microstates(pkas[:, None], [1] * k, charges, pairs, max_states=2**6)
+    assert not mf.exact
+    grid = np.linspace(0, 14, 29)
+    assert np.max(np.abs(mf.charge(grid) - exact.charge(grid))) < 0.1
+    assert np.allclose(mf.macroscopic_pkas(), exact.macroscopic_pkas(), atol=0.35)
+    state, pop = mf.dominant(7.0)
+    assert state.shape == (k,) and 0 < pop <= 1
+    with pytest.raises(ValueError, match="exact model"):
+        mf.populations(7.0)
+
+
+def test_default_limit_is_two_to_the_sixteen() -> None:
+    assert MAX_EXACT_STATES == 2**16
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        Microstates(np.full((16, 1), 7.0), [1] * 16, [0] * 16)  # 65536 states: exact, no warning
+    with pytest.warns(ZwitterWarning, match="131072 microstates"):
+        Microstates(np.full((17, 1), 7.0), [1] * 17, [0] * 17)
+
+
+# -- calibration ---------------------------------------------------------------------------------
+def _calibration_rows() -> list[dict[str, str]]:
+    with open(REFERENCE, encoding="utf-8") as fh:
+        rows = list(csv.DictReader(line for line in fh if not line.startswith("#")))
+    return [r for r in rows if r["role"] == "calibration"]
+
+
+def _symmetric(row: dict[str, str]) -> bool:
+    groups = row["groups"].split()
+    return len(groups) == 2 and groups[0] == groups[1]
+
+
+def _calibration_residuals(coupling: Coupling) -> np.ndarray:
+    """Residuals of the fit: spreads pK2 - pK1 of the symmetric diacids/diamines (what the
+    coupling sets), absolute values of the amino alcohols and omega-amino acids."""
+    import zwitter.structure as zs
+
+    out: list[float] = []
+    for row in _calibration_rows():
+        mol, text = zs._parse(row["smiles"], row["name"])
+        mol, removed, notes = zs._standardise(mol, text, row["name"], False)
+        m = zs.StructureMolecule(
+            zs._analyse(mol),
+            name=row["name"],
+            input_smiles=text,
+            removed=removed,
+            notes=notes,
+            coupling=coupling,
+        )
+        pred = m.pkas()
+        ref = [float(x) for x in row["pkas"].split(";")]
+        if _symmetric(row):
+            out.append((pred[1] - pred[0]) - (ref[1] - ref[0]))
+        else:
+            out.extend(p - r for p, r in zip(pred, ref))
+    return np.array(out)
+
+
+def test_coupling_reproduces_the_homologous_series() -> None:
+    # CRC Handbook (role calibration rows): e.g. succinic 4.21/5.64, ethylenediamine 6.85/9.93.
+    res = _calibration_residuals(default_coupling())
+    assert len(res) == 16  # 8 spreads + 2 amino alcohols + 3 x 2 omega-amino acid values
+    assert float(np.sqrt(np.mean(res**2))) < 0.25
+    assert float(np.max(np.abs(res))) < 0.65  # malonic acid: its H-bonded monoanion
+
+
+def test_stored_coupling_is_a_least_squares_optimum() -> None:
+    # Moving any stored parameter by 10 % does not lower the sum of squares by more than 2 %.
+    base = default_coupling()
+    sse0 = float(np.sum(_calibration_residuals(base) ** 2))
+    for pair in ("anion", "cation", "opposite"):
+        amp, att = getattr(base, pair)
+        for new in ((amp * 1.1, att), (amp * 0.9, att), (amp, att * 1.1), (amp, att * 0.9)):
+            trial = Coupling(
+                **{
+                    "anion": base.anion,
+                    "cation": base.cation,
+                    "opposite": base.opposite,
+                    pair: new,
+                },
+                d0=base.d0,
+            )
+            sse = float(np.sum(_calibration_residuals(trial) ** 2))
+            assert sse > 0.98 * sse0, (pair, new, sse, sse0)

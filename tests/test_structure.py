@@ -1,0 +1,685 @@
+"""SMILES path: reading, standardisation, group detection, pKa assignment, forms, files, CLI.
+
+Outside references: data/reference/small_molecule_pka.csv (CRC Handbook, Perrin's and Albert &
+Serjeant's compilations, Clarke's, Good 1966; source per row), data/reference/free_amino_acids.csv
+(Nelson & Cox, Lehninger 4th ed., Table 3-1), RDKit (parsing, canonical SMILES, formal charges,
+its bundled NCI sample file and SDF), and zwitter's sequence path with a published scale
+(Thurlkill et al. 2006) for peptides drawn as SMILES.
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+import os
+import pickle
+import re
+import time
+import warnings
+from collections import defaultdict
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, assume, given, settings
+from hypothesis import strategies as st
+from rdkit import Chem, RDConfig
+
+import zwitter
+from zwitter.errors import (
+    InputFileError,
+    ParameterError,
+    ScaleError,
+    StructureError,
+    ZwitterError,
+    ZwitterWarning,
+)
+from zwitter.structure import (
+    StructureMolecule,
+    from_smiles,
+    group_keys,
+    group_types,
+    iter_smiles_file,
+    reactions,
+    substituents,
+)
+
+ROOT = Path(__file__).resolve().parents[1]
+REFERENCE = ROOT / "data" / "reference" / "small_molecule_pka.csv"
+AMINO_ACIDS = ROOT / "data" / "reference" / "free_amino_acids.csv"
+NCI = Path(RDConfig.RDDataDir) / "NCI" / "first_5K.smi"
+NCI_SDF = Path(RDConfig.RDDataDir) / "NCI" / "first_200.props.sdf"
+
+
+def _rows() -> list[dict[str, str]]:
+    with open(REFERENCE, encoding="utf-8") as fh:
+        return list(csv.DictReader(line for line in fh if not line.startswith("#")))
+
+
+ROWS = _rows()
+
+
+def _quiet(smiles: Any, **kw: Any) -> StructureMolecule:
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ZwitterWarning)
+        return from_smiles(smiles, **kw)
+
+
+# -- the packaged tables -------------------------------------------------------------------------
+def test_group_library_has_at_least_40_types_with_sources() -> None:
+    groups = group_types()
+    assert len(groups) >= 40
+    keys = group_keys()
+    assert len(keys) == len(set(keys)) == len(groups)
+    kinds = {g.kind for g in groups}
+    assert kinds == {"acid", "base"}
+    for g in groups:
+        assert g.source and g.label, g.key
+        assert g.charge in (0, 1)
+        assert g.lfer == "none" or g.lfer in reactions()
+    # the issue's list of group families is covered
+    for key in (
+        "carboxylic_acid",
+        "aromatic_carboxylic_acid",
+        "phenol",
+        "thiol",
+        "amine_primary",
+        "amine_secondary",
+        "amine_tertiary",
+        "amine_secondary_cyclic",
+        "aniline",
+        "pyridine",
+        "imidazole",
+        "benzimidazole",
+        "amidine",
+        "guanidine",
+        "tetrazole",
+        "sulfonamide",
+        "acylsulfonamide",
+        "sulfonylurea",
+        "imide",
+        "hydroxamic_acid",
+        "barbiturate",
+        "uracil",
+        "beta_diketone",
+        "phosphoric_acid",
+        "phosphonic_acid",
+        "phosphate_monoester",
+        "sulfonic_acid",
+        "sulfuric_acid",
+        "boronic_acid",
+        "hydrazine",
+        "amidoxime",
+    ):
+        assert key in keys
+
+
+def test_substituent_and_reaction_tables_load_with_sources() -> None:
+    subs = substituents()
+    assert len(subs) >= 30
+    for s in subs:
+        if s.sigma_m is not None or s.sigma_p is not None:
+            assert s.source_hammett
+        if s.sigma_star is not None:
+            assert s.source_taft
+    r = reactions()
+    # Hammett 1937 J. Am. Chem. Soc. 59:96: rho = 1 for benzoic acids by definition
+    assert r["hammett_benzoic"].rho == 1.0
+    assert {x.kind for x in r.values()} == {"hammett", "taft"}
+
+
+def test_malformed_smarts_is_reported_with_file_and_line() -> None:
+    from zwitter.structure import _query
+    from zwitter.tables import read_csv_text
+
+    row = read_csv_text("key,smarts\nbad,[C:1](\n", "demo.csv", ("key", "smarts"))[0]
+    with pytest.raises(
+        ScaleError, match=r"demo\.csv, line 2, column 'smarts': invalid group SMARTS"
+    ):
+        _query(row["smarts"], row, "group")
+
+
+# -- reference table: detection and accuracy -----------------------------------------------------
+@pytest.mark.parametrize("row", ROWS, ids=[r["name"] for r in ROWS])
+def test_every_group_is_found_and_none_invented(row: dict[str, str]) -> None:
+    m = _quiet(row["smiles"])
+    found = sorted(s.group.key for s in m.structure_sites)
+    assert found == sorted(row["groups"].split()), row["name"]
+    assert len(m.pkas()) == len(row["pkas"].split(";")), "one macroscopic pKa per step"
+
+
+def _errors() -> tuple[dict[str, list[float]], list[float], list[float]]:
+    """(absolute errors by group type, all scored errors, errors of role=test rows)."""
+    by_group: dict[str, list[float]] = defaultdict(list)
+    scored: list[float] = []
+    tests: list[float] = []
+    for row in ROWS:
+        pred = _quiet(row["smiles"]).pkas()
+        for p, ref, group in zip(pred, row["pkas"].split(";"), row["pka_groups"].split(";")):
+            if ref == "nd":
+                continue
+            err = abs(p - float(ref))
+            scored.append(err)
+            if row["role"] != "parent":
+                by_group[group].append(err)
+            if row["role"] == "test":
+                tests.append(err)
+    return by_group, scored, tests
+
+
+def test_reference_table_mean_absolute_error() -> None:
+    by_group, scored, tests = _errors()
+    assert len(scored) >= 200 and len(tests) >= 150
+    overall = float(np.mean(scored))
+    held_out = float(np.mean(tests))
+    # The issue's target is an overall MAE below 0.6; the rows that were used for nothing but
+    # testing must meet it on their own too (parents are exact by construction).
+    assert overall < 0.6, overall
+    assert held_out < 0.6, held_out
+    # a per-group table exists for every group type that has test or calibration rows
+    assert {"carboxylic_acid", "phenol", "aniline", "pyridine", "amine_primary"} <= set(by_group)
+
+
+def test_reference_table_covers_every_group_type() -> None:
+    covered = {g for row in ROWS for g in row["groups"].split()}
+    assert set(group_keys()) <= covered
+    assert len({r["name"] for r in ROWS}) >= 80
+
+
+# -- polyprotic molecules ------------------------------------------------------------------------
+def _close(pred: list[float], ref: list[float], tol: float) -> None:
+    assert len(pred) == len(ref)
+    for p, r in zip(pred, ref):
+        assert abs(p - r) <= tol, (pred, ref)
+
+
+def test_phosphoric_acid_crc() -> None:
+    # CRC Handbook, dissociation constants of inorganic acids: 2.15, 7.20, 12.35
+    _close(from_smiles("OP(=O)(O)O").pkas(), [2.15, 7.20, 12.35], 0.5)
+
+
+def test_citric_acid_crc() -> None:
+    # CRC Handbook, dissociation constants of organic acids: 3.13, 4.76, 6.40
+    _close(from_smiles("OC(=O)CC(O)(CC(=O)O)C(=O)O").pkas(), [3.13, 4.76, 6.40], 0.5)
+
+
+def test_glycine_lehninger() -> None:
+    # Nelson & Cox 2005, Lehninger 4th ed., Table 3-1: 2.34, 9.60 (data/reference)
+    with open(AMINO_ACIDS, encoding="utf-8") as fh:
+        row = next(
+            r for r in csv.DictReader(x for x in fh if not x.startswith("#")) if r["residue"] == "G"
+        )
+    m = from_smiles("NCC(=O)O")
+    _close(m.pkas(), [float(row["pk_cooh"]), float(row["pk_nh3"])], 0.5)
+    assert m.isoelectric_point() == pytest.approx(float(row["pi_listed"]), abs=0.5)
+
+
+def test_ethylenediamine_crc() -> None:
+    # CRC Handbook: 6.85, 9.93 (ethylenediamine is also a calibration row of the coupling)
+    _close(from_smiles("NCCN").pkas(), [6.85, 9.93], 0.5)
+
+
+EDTA = "OC(=O)CN(CC(=O)O)CCN(CC(=O)O)CC(=O)O"
+
+
+def test_edta_amine_steps_crc() -> None:
+    # CRC Handbook / Martell & Smith, Critical Stability Constants vol. 1: 6.13 and 10.37 for the
+    # two amine steps (the highest two of 0.0, 1.5, 2.00, 2.69, 6.13, 10.37). Measured error 0.6.
+    pred = from_smiles(EDTA).pkas()
+    _close(pred[-2:], [6.13, 10.37], 0.7)
+
+
+@pytest.mark.xfail(
+    reason="EDTA: carboxyl steps come out about 1.2 too high and the amine steps 0.6 off; "
+    "the additive Taft terms over-count several carboxymethyl arms on one N (see README)",
+    strict=True,
+)
+def test_edta_all_steps_within_half_a_unit() -> None:
+    _close(from_smiles(EDTA).pkas()[2:], [2.00, 2.69, 6.13, 10.37], 0.5)
+
+
+def test_free_amino_acids_lehninger() -> None:
+    # Nelson & Cox 2005 (data/reference/free_amino_acids.csv): every listed pKa of the 20 amino
+    # acids drawn as SMILES (RDKit's MolFromSequence on the one-letter code, an amino acid).
+    with open(AMINO_ACIDS, encoding="utf-8") as fh:
+        rows = list(csv.DictReader(x for x in fh if not x.startswith("#")))
+    errors = []
+    for r in rows:
+        smi = Chem.MolToSmiles(Chem.MolFromSequence(r["residue"]))
+        ref = sorted(float(r[k]) for k in ("pk_cooh", "pk_nh3", "pk_r") if r[k])
+        pred = _quiet(smi).pkas()
+        if r["residue"] in "YCKHRDE":
+            assert len(pred) == 3, r["name"]
+        else:
+            assert len(pred) == 2, r["name"]
+        errors.extend(abs(p - q) for p, q in zip(pred, ref))
+    assert float(np.mean(errors)) < 0.5
+
+
+# -- microstates, dominant form ------------------------------------------------------------------
+@settings(max_examples=30, deadline=None)
+@given(
+    smiles=st.sampled_from(
+        [
+            "NCC(=O)O",
+            EDTA,
+            "OC(=O)CC(O)(CC(=O)O)C(=O)O",
+            "NCCCC[C@H](N)C(=O)O",
+            "OP(=O)(O)OP(=O)(O)O",
+            "Nc1ccc(cc1)C(=O)O",
+        ]
+    ),
+    ph=st.floats(-2.0, 16.0),
+)
+def test_microstate_populations_sum_to_one(smiles: str, ph: float) -> None:
+    m = _quiet(smiles)
+    assert m.model.populations(ph).sum() == pytest.approx(1.0, abs=1e-9)
+    assert m.species(ph, min_population=0.0).population.sum() == pytest.approx(1.0, abs=1e-6)
+    frac = m.site_table(ph).fraction_protonated
+    assert ((frac >= -1e-12) & (frac <= 1 + 1e-12)).all()
+
+
+@pytest.mark.parametrize("ph", [1.0, 7.4, 12.0])
+@pytest.mark.parametrize("row", ROWS[::3], ids=[r["name"] for r in ROWS[::3]])
+def test_dominant_smiles_parses_with_the_reported_charge(row: dict[str, str], ph: float) -> None:
+    d = _quiet(row["smiles"]).dominant(ph)
+    mol = Chem.MolFromSmiles(d.smiles)  # RDKit reads it back ...
+    assert mol is not None
+    assert Chem.GetFormalCharge(mol) == d.charge  # ... with the charge zwitter reports
+    assert 0 < d.population <= 1
+
+
+def _reprotonate(smiles: str, choices: list[int]) -> str | None:
+    """The same molecule with protons moved by RDKit alone: each neutral N/O/S either stays,
+    loses a proton (if it has one) or gains one. None if RDKit rejects the result."""
+    mol = Chem.RWMol(Chem.MolFromSmiles(smiles))
+    cands = [
+        a.GetIdx()
+        for a in mol.GetAtoms()
+        if a.GetAtomicNum() in (7, 8, 16) and a.GetFormalCharge() == 0
+    ]
+    for idx, c in zip(cands, choices):
+        atom = mol.GetAtomWithIdx(idx)
+        h = atom.GetTotalNumHs()
+        if c == 1 and h > 0:
+            atom.SetFormalCharge(-1)
+            atom.SetNumExplicitHs(h - 1)
+            atom.SetNoImplicit(True)
+        elif c == 2:
+            atom.SetFormalCharge(1)
+            atom.SetNumExplicitHs(h + 1)
+            atom.SetNoImplicit(True)
+    try:
+        Chem.SanitizeMol(mol)
+    except Exception:  # noqa: BLE001 - RDKit's own exception types
+        return None
+    return str(Chem.MolToSmiles(mol))
+
+
+PROTONATION_CASES = [
+    "NCC(=O)O",
+    "N[C@@H](Cc1c[nH]cn1)C(=O)O",
+    "Nc1ccc(cc1)S(=O)(=O)Nc1ncccn1",
+    "OC(=O)c1cccnc1",
+    "NC(=N)NCCC[C@H](N)C(=O)O",
+    "Oc1ccc(cc1)C[C@H](N)C(=O)O",
+    "CN1CCC[C@H]1c1cccnc1",
+    "OP(=O)(O)OCC(N)C(=O)O",
+    "C[N+](C)(C)CC(=O)O",
+    "[O-][n+]1ccccc1",
+]
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.filter_too_much])
+@given(
+    smiles=st.sampled_from(PROTONATION_CASES),
+    choices=st.lists(st.integers(0, 2), min_size=12, max_size=12),
+)
+def test_answer_does_not_depend_on_the_protonation_drawn(smiles: str, choices: list[int]) -> None:
+    other = _reprotonate(smiles, choices)
+    assume(other is not None)
+    a, b = _quiet(smiles), _quiet(other)
+    assert b.reference_smiles == a.reference_smiles
+    assert np.allclose(b.pkas(), a.pkas(), atol=1e-9)
+    assert b.charge(7.4) == pytest.approx(a.charge(7.4), abs=1e-9)
+    assert b.dominant(7.4).smiles == a.dominant(7.4).smiles
+
+
+def test_charge_is_vectorised_and_falls_with_ph() -> None:
+    m = from_smiles("NCCCC[C@H](N)C(=O)O")  # lysine
+    ph = np.linspace(0, 14, 57)
+    z = m.charge(ph)
+    assert isinstance(z, np.ndarray) and z.shape == ph.shape
+    assert np.all(np.diff(z) < 0)
+    assert z[0] == pytest.approx(2.0, abs=0.05) and z[-1] == pytest.approx(-1.0, abs=0.05)
+    assert isinstance(m.charge(7.0), float)
+    curve = m.curve(ph=[2.0, 7.0])
+    assert list(curve.columns[:2]) == ["ph", "charge"]
+    assert curve.shape == (2, 2 + 3)
+
+
+def test_isoelectric_point_of_an_ampholyte_is_where_the_charge_vanishes() -> None:
+    m = from_smiles("N[C@@H](Cc1c[nH]cn1)C(=O)O")  # histidine, Lehninger pI 7.59
+    pi = m.isoelectric_point()
+    assert pi is not None and abs(m.charge(pi)) < 1e-4
+    assert pi == pytest.approx(7.59, abs=0.5)
+
+
+def test_site_table_explains_each_correction_with_its_source() -> None:
+    m = from_smiles("OC(=O)c1ccc(cc1)[N+](=O)[O-]")  # 4-nitrobenzoic acid, CRC 3.44
+    t = m.site_table(7.0)
+    assert list(t.columns) == [
+        "site",
+        "group",
+        "kind",
+        "atoms",
+        "base_pka",
+        "base_source",
+        "corrections",
+        "correction_total",
+        "pka",
+        "fraction_protonated",
+        "charge",
+    ]
+    row = t.iloc[0]
+    assert row.group == "aromatic_carboxylic_acid" and row.base_pka == "4.20"
+    assert "para nitro" in row.corrections and "Hansch, Leo & Taft 1991" in row.corrections
+    assert row.correction_total == pytest.approx(-0.78)  # rho 1.00 x sigma_p(NO2) 0.78
+    assert m.pkas()[0] == pytest.approx(3.44, abs=0.1)
+    ex = m.explain()
+    steps = [r["step"] for r in ex.rows]
+    assert steps[0] == "base pKa" and "site pKa" in steps and "macroscopic pKa" in steps
+    assert all(r["source"] for r in ex.rows)
+    assert "para nitro" in str(ex)
+
+
+def test_species_merges_symmetry_equivalent_microstates() -> None:
+    m = from_smiles("OC(=O)CC(O)(CC(=O)O)C(=O)O")  # citric acid: two equivalent outer carboxyls
+    sp = m.species(5.0)
+    assert sp.smiles.is_unique
+    assert list(sp.population) == sorted(sp.population, reverse=True)
+    d = m.dominant(5.0)
+    assert d.smiles == sp.smiles[0] and d.population == pytest.approx(sp.population[0])
+    assert d.population == pytest.approx(2 * d.microstate_population)
+    assert len(m.microstates(5.0, top=3)) == 3
+
+
+def test_residue_states_of_the_base_class_use_the_coupled_model() -> None:
+    rs = from_smiles("NCC(=O)O").residue_states(7.0)
+    assert list(rs.member) == ["N0", "O4"]
+    assert list(rs.state) == ["protonated", "deprotonated"]
+
+
+# -- reading, standardising, bad input -----------------------------------------------------------
+def test_counter_ions_are_removed_and_reported() -> None:
+    m = from_smiles("CC(=O)[O-].[Na+]")
+    assert m.removed_fragments == ("[Na+]",)
+    assert m.info["removed_fragments"] == ["[Na+]"]
+    assert m.charge(7.0) == pytest.approx(-1.0, abs=0.01)
+    both = from_smiles("CC(=O)[O-].[Na+]", keep_fragments=True)
+    assert both.removed_fragments == ()
+    assert both.charge(7.0) == pytest.approx(0.0, abs=0.01)  # Na+ is a permanent +1
+
+
+def test_hydrochloride_salt_gives_the_free_base_reference() -> None:
+    m = from_smiles("C[NH3+].[Cl-]")
+    assert m.reference_smiles == "CN" and m.removed_fragments == ("[Cl-]",)
+
+
+def test_permanent_charges_stay() -> None:
+    quat = from_smiles("C[N+](C)(C)C")
+    assert quat.charge(np.array([1.0, 13.0])) == pytest.approx([1.0, 1.0])
+    with pytest.warns(ZwitterWarning, match="no titratable group"):
+        assert quat.isoelectric_point() is None
+    betaine = from_smiles("C[N+](C)(C)CC(=O)[O-]")
+    assert betaine.charge(7.0) == pytest.approx(0.0, abs=0.01)
+    with pytest.warns(ZwitterWarning, match="stays at or above zero"):
+        assert betaine.isoelectric_point() is None
+    noxide = from_smiles("[O-][n+]1ccccc1")  # pyridine N-oxide drawn charge-separated
+    assert noxide.reference_smiles == "[O-][n+]1ccccc1"
+    assert noxide.charge(7.0) == pytest.approx(0.0, abs=0.01)
+
+
+def test_no_ionizable_group() -> None:
+    m = from_smiles("CCO")
+    assert m.charge(7.0) == 0.0 and m.pkas() == []
+    with pytest.warns(ZwitterWarning, match="no titratable group: the charge does not change"):
+        assert m.isoelectric_point() is None
+    assert m.dominant(7.0).smiles == "CCO"
+
+
+@pytest.mark.parametrize(
+    ("bad", "match"),
+    [
+        ("C1CC", r"cannot read SMILES: SMILES Parse Error: unclosed ring .*\(SMILES 'C1CC'\)"),
+        ("xyz", r"cannot read SMILES: SMILES Parse Error: syntax error.*\(SMILES 'xyz'\)"),
+        ("c1cccc1", r"cannot read SMILES: Can't kekulize mol.*\(SMILES 'c1cccc1'\)"),
+        ("CN(C)(C)(C)C", r"Explicit valence for atom # 1 N, 5, is greater than permitted"),
+        ("", r"^empty SMILES \(''\): give a structure$"),
+        ("   ", r"^empty SMILES \('   '\): give a structure$"),
+    ],
+)
+def test_bad_smiles_raise_a_structure_error_naming_the_input(bad: str, match: str) -> None:
+    with pytest.raises(StructureError, match=match):
+        from_smiles(bad)
+
+
+def test_structure_errors_name_the_record_and_pickle(capfd: pytest.CaptureFixture[str]) -> None:
+    with pytest.raises(StructureError) as info:
+        from_smiles("C1CC", name="row 7")
+    assert str(info.value).startswith("record 'row 7': cannot read SMILES")
+    again = pickle.loads(pickle.dumps(info.value))
+    assert str(again) == str(info.value)
+    assert isinstance(info.value, ValueError)
+    # RDKit's own log lines were captured: nothing reached the terminal
+    out, err = capfd.readouterr()
+    assert out == "" and err == ""
+
+
+def test_wrong_input_type_is_a_parameter_error() -> None:
+    with pytest.raises(ParameterError, match="'smiles_or_mol' parameter of from_smiles must be"):
+        from_smiles(42)
+
+
+def test_rdkit_mol_input_is_copied_not_changed() -> None:
+    mol = Chem.MolFromSmiles("[NH3+]CC(=O)[O-]")
+    before = Chem.MolToSmiles(mol)
+    m = from_smiles(mol)
+    assert Chem.MolToSmiles(mol) == before
+    assert m.reference_smiles == "NCC(=O)O"
+
+
+@pytest.mark.parametrize(
+    ("smiles", "match"),
+    [
+        ("CC(=O)O[Na]", "bonds to metal atom\\(s\\) Na were broken"),
+        ("CC(=O)O[Cu]OC(C)=O", "bonds to metal atom\\(s\\) Cu were broken"),
+        ("C[Hg]C", "metal atom\\(s\\) Hg in the molecule"),
+    ],
+)
+def test_metals_give_a_warning(smiles: str, match: str) -> None:
+    with pytest.warns(ZwitterWarning) as caught:
+        m = from_smiles(smiles)
+    assert any(re.search(match, str(w.message)) for w in caught), [str(w.message) for w in caught]
+    assert m.notes
+
+
+def test_conditions_are_applied_to_site_pkas_before_the_microstates() -> None:
+    seen = {}
+
+    class Shift:  # the duck-typed conditions protocol: apply(SiteSet) -> SiteSet
+        def apply(self, sites: zwitter.SiteSet) -> zwitter.SiteSet:
+            seen["groups"], seen["atoms"] = sites.groups, sites.atoms
+            return sites.with_pkas(sites.pkas + 1.0)
+
+    plain = from_smiles("CC(=O)O")
+    shifted = from_smiles("CC(=O)O", conditions=Shift())
+    assert seen == {"groups": ("carboxylic_acid",), "atoms": ((3,),)}
+    assert shifted.pkas()[0] == pytest.approx(plain.pkas()[0] + 1.0)
+    assert shifted.reference_sites.pkas[0, 0] == pytest.approx(4.76)
+    assert "conditions" in [r["step"] for r in shifted.explain().rows]
+
+
+def test_real_conditions_object() -> None:
+    from zwitter.conditions import Conditions
+
+    m = from_smiles("NCC(=O)O", conditions=Conditions(temperature=37.0, ionic_strength=0.15))
+    # van 't Hoff: the ammonium (large ionization enthalpy) falls with temperature
+    assert m.pkas()[1] < from_smiles("NCC(=O)O").pkas()[1] - 0.2
+
+
+def test_large_molecules_fall_back_to_mean_field_with_a_warning() -> None:
+    smiles = "NCC(=O)" + "NCCC(N)C(=O)" * 9 + "O"  # 1 + 9 x 1 amines, one acid: 2**11 states
+    assert _quiet(smiles).model.exact
+    big = "OC(=O)" + "CC(C(=O)O)" * 17 + "C"  # 18 carboxylic acids: 2**18 microstates
+    with pytest.warns(ZwitterWarning, match="mean-field"):
+        m = from_smiles(big)
+    assert not m.model.exact
+    assert -18.0 <= m.charge(7.0) <= 0.0
+    d = m.dominant(7.0)
+    assert Chem.GetFormalCharge(Chem.MolFromSmiles(d.smiles)) == d.charge
+
+
+# -- peptides drawn as SMILES --------------------------------------------------------------------
+PEPTIDES = [
+    "GG",
+    "AK",
+    "DE",
+    "GLSDGEWQQVLNVWGK",
+    "ACDEFGHIKLMNPQRSTVWY",
+    "KKKK",
+    "DDDD",
+    "YGGFL",
+    "RPPGFSPFR",
+    "HHHH",
+    "EAAAK",
+    "CGYGPKKKRKVGG",
+    "DRVYIHPF",
+]
+
+
+def test_peptides_as_smiles_agree_with_the_sequence_path() -> None:
+    # Sequence path with the Thurlkill et al. 2006 scale (measured in pentapeptides).
+    diffs = {}
+    for seq in PEPTIDES:
+        smi = Chem.MolToSmiles(Chem.MolFromSequence(seq))
+        m = _quiet(smi)
+        keys = sorted(s.group.key for s in m.structure_sites)
+        assert keys.count("amine_primary") == 1 + seq.count("K"), seq
+        assert keys.count("guanidine") == seq.count("R") and keys.count("thiol") == seq.count("C")
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", ZwitterWarning)
+            ref = zwitter.from_sequence(seq, scale="thurlkill").isoelectric_point()
+        pi = m.isoelectric_point()
+        assert pi is not None and ref is not None
+        diffs[seq] = abs(pi - ref)
+    assert float(np.mean(list(diffs.values()))) <= 0.3, diffs
+    assert max(diffs.values()) <= 0.6, diffs
+    assert sum(v <= 0.3 for v in diffs.values()) >= 8, diffs  # measured: 9 of 13
+
+
+# -- files ---------------------------------------------------------------------------------------
+def test_rdkit_ships_the_nci_sample() -> None:
+    assert NCI.is_file(), f"RDKit's NCI sample is missing from {NCI.parent}"
+
+
+def test_nci_sample_every_row_processed_and_reported() -> None:
+    with open(NCI, encoding="utf-8") as fh:
+        lines = [x for x in fh if x.strip()]
+    t0 = time.perf_counter()
+    records = list(iter_smiles_file(NCI))
+    assert [r.id for r in records] == [x.split()[1] for x in lines]
+    results: list[tuple[str, Any]] = []
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ZwitterWarning)
+        for rec in records:
+            try:
+                m = from_smiles(rec.molecule, name=rec.id)
+                d = m.dominant(7.4)
+                results.append((rec.id, (m.charge(7.4), d.smiles, d.charge)))
+            except StructureError as exc:
+                assert exc.record == rec.id and exc.smiles == rec.molecule
+                results.append((rec.id, exc))
+    elapsed = time.perf_counter() - t0
+    assert [i for i, _ in results] == [r.id for r in records]  # every row present, in order
+    bad = [v for _, v in results if isinstance(v, ZwitterError)]
+    assert 0 < len(bad) < 25  # RDKit rejects a few rows (valence errors): reported, not dropped
+    for _, v in results:
+        if isinstance(v, tuple):
+            mol = Chem.MolFromSmiles(v[1])
+            assert mol is not None and Chem.GetFormalCharge(mol) == v[2]
+            assert math.isfinite(v[0])
+    assert elapsed < 60.0
+
+
+def test_smi_csv_and_sdf_readers(tmp_path: Path) -> None:
+    smi = tmp_path / "a.smi"
+    smi.write_text("CCO ethanol\n\n# comment\nC1CC broken\nNCC(=O)O\n")
+    recs = list(iter_smiles_file(smi))
+    assert [(r.id, r.molecule) for r in recs] == [
+        ("ethanol", "CCO"),
+        ("broken", "C1CC"),
+        ("5", "NCC(=O)O"),
+    ]
+    table = tmp_path / "b.csv"
+    table.write_text("name,SMILES\nacetic,CC(=O)O\nnothing,\nglycine,NCC(=O)O\n")
+    recs = list(iter_smiles_file(table, id_column="name"))
+    assert [r.id for r in recs] == ["acetic", "nothing", "glycine"]
+    assert recs[1].molecule is None and isinstance(recs[1].error, StructureError)
+    assert "line 3: empty SMILES cell in column 'SMILES'" in str(recs[1].error)
+    sdf = list(iter_smiles_file(NCI_SDF))
+    assert len(sdf) == 200 and all(r.error is None for r in sdf)
+    assert isinstance(sdf[0].molecule, Chem.Mol)
+    assert math.isfinite(_quiet(sdf[0].molecule, name=sdf[0].id).charge(7.4))
+
+
+def test_reader_errors(tmp_path: Path) -> None:
+    with pytest.raises(InputFileError, match="no such file"):
+        list(iter_smiles_file(tmp_path / "missing.smi"))
+    odd = tmp_path / "x.xyz"
+    odd.write_text("C\n")
+    with pytest.raises(InputFileError, match="unknown structure file type '.xyz'"):
+        list(iter_smiles_file(odd))
+    table = tmp_path / "c.csv"
+    table.write_text("a,b\n1,2\n")
+    with pytest.raises(InputFileError, match="no SMILES column: pass column="):
+        list(iter_smiles_file(table))
+    bad_sdf = tmp_path / "bad.sdf"
+    bad_sdf.write_text(
+        "broken\n  nothing\n\n  1  0  0  0  0  0  0  0  0  0999 V2000\n"
+        "    0.0000    0.0000    0.0000 Xx  0  0\nM  END\n$$$$\n"
+    )
+    recs = list(iter_smiles_file(bad_sdf))
+    assert len(recs) == 1 and recs[0].molecule is None
+    assert isinstance(recs[0].error, StructureError)
+
+
+# -- CLI -----------------------------------------------------------------------------------------
+def test_cli_explain_and_species() -> None:
+    import json
+
+    from typer.testing import CliRunner
+
+    from zwitter.cli import app
+
+    runner = CliRunner()
+    res = runner.invoke(app, ["explain", "NCC(=O)O", "--format", "json"])
+    assert res.exit_code == 0, res.output
+    doc = json.loads(res.stdout)
+    assert doc["macroscopic_pkas"] == [round(x, 3) for x in from_smiles("NCC(=O)O").pkas()]
+    assert {r["step"] for r in doc["reasoning"]} >= {"base pKa", "site pKa", "macroscopic pKa"}
+    res = runner.invoke(app, ["species", "CC(=O)O.[Na+]", "--ph", "7.4", "--format", "csv"])
+    assert res.exit_code == 0
+    assert res.stdout.splitlines()[:2] == [
+        "rank,smiles,charge,protons_lost,population",
+        "1,CC(=O)[O-],-1.0,1,0.998",
+    ]
+    res = runner.invoke(app, ["species", "C1CC"])
+    assert res.exit_code == 2
+    assert "cannot read SMILES" in res.output
+
+
+def test_nci_path_environment() -> None:
+    # the bundled data directory is where RDKit says it is (no download needed)
+    assert os.path.isdir(RDConfig.RDDataDir)
