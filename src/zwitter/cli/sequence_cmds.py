@@ -232,51 +232,55 @@ def scales(
 @app.command()
 def demo(
     out: Annotated[
-        Path,
-        typer.Option("--out", "-o", help="Folder for the demo's output files.", file_okay=False),
+        Path, typer.Option("--out", "-o", help="Folder for the demo's output files.", file_okay=False)
     ] = Path("zwitter-demo"),
-    fmt: FormatOpt = OutputFormat.table,
 ) -> None:
-    """Run the main job on built-in demo data (an invented purification scenario)."""
-    from importlib import resources
+    """Run the main jobs on built-in demo data (an invented purification scenario)."""
+    from ..demo import DEMO_CONDITIONS, DEMO_STABILITY, run_demo
 
-    from ..fasta import read_fasta
-    from ..scales import get_scale
-    from ..scoring import score_sequences
-
-    source = resources.files("zwitter").joinpath("data", "demo", "marsh_extract.fasta")
-    with resources.as_file(source) as fasta:
-        records = list(read_fasta(fasta))
-    sc = get_scale(None)
-    ph = [5.0, 7.4, 9.0]
-    scores = score_sequences([r.sequence for r in records], ph, sc, [r.id for r in records])
-    rows: list[dict[str, Any]] = []
-    for i, rec in enumerate(records):
-        row: dict[str, Any] = {
-            "id": rec.id,
-            "length": int(scores.composition.lengths[i]),
-            "pI": float(scores.pi[i]),
-        }
-        for j, p in enumerate(ph):
-            row[f"charge@pH{p:g}"] = float(scores.charge[i, j])
-        row["description"] = rec.description
-        rows.append(row)
-    rows.sort(key=lambda r: r["pI"])
-    if fmt is OutputFormat.table:
-        sys.stdout.write(
-            "Demo (invented scenario): the fictional Marsh Lab purifies 'marinase', a His-tagged\n"
-            "nuclease, from a host-cell extract. Which proteins carry which charge?\n\n"
-        )
-    shown = (
-        rows
-        if fmt is not OutputFormat.table
-        else [{k: v for k, v in r.items() if k != "description"} for r in rows]
+    try:
+        result = run_demo(out)
+    except ZwitterError as exc:
+        fail(str(exc))
+    w = sys.stdout.write
+    w(
+        "Demo (an invented scenario): the fictional Marsh Lab purifies 'marinase', a His-tagged\n"
+        "nuclease, from a host-cell extract. The column runs at "
+        f"{DEMO_CONDITIONS['temperature']:g} deg C with "
+        f"{DEMO_CONDITIONS['ionic_strength'] * 1000:g} mM NaCl; marinase is stable at pH "
+        f"{DEMO_STABILITY[0]:g}-{DEMO_STABILITY[1]:g}.\n\n"
     )
-    emit(shown, fmt, title=f"Demo extract, ordered by pI (scale {sc.key})", caption=CAUTION)
-    out.mkdir(parents=True, exist_ok=True)
-    target = out / "demo_scores.csv"
-    tmp = target.with_suffix(".csv.tmp")
-    with tmp.open("w", encoding="utf-8") as handle:
-        emit(rows, OutputFormat.csv, stream=handle)
-    tmp.replace(target)
-    sys.stderr.write(f"zwitter: wrote {target}\n")
+    frame = result.extract
+    rows = [
+        {"id": r["id"], "length": int(r["length"]), "mass_kDa": float(r["average_mass"]) / 1000,
+         "pI": float(r["pI"]), "charge@pH5": float(r["charge_ph5.0"]),
+         "charge@pH7.4": float(r["charge_ph7.4"]), "charge@pH9": float(r["charge_ph9.0"])}
+        for _, r in frame.sort_values("pI").iterrows()
+    ]  # fmt: skip
+    emit(rows, OutputFormat.table, title="1. The extract, ordered by pI")
+    plan = result.plan
+    if plan.exchanger:
+        w(
+            f"\n2. Column: {plan.exchanger} exchanger at pH {plan.working_ph:.1f} "
+            f"(marinase pI {plan.pi:.2f}; charge there {float(plan.target.charge(plan.working_ph)):+.1f})."
+            "\n"
+        )
+        order = plan.elution_order()
+        emit(
+            [{k: (float(v) if isinstance(v, float) else v) for k, v in r.items()}
+             for r in order.to_dict("records")],
+            OutputFormat.table, title=f"Predicted elution order at pH {plan.working_ph:.1f}",
+        )  # fmt: skip
+    else:
+        w("\n2. Column: no exchanger binds marinase inside its stability window.\n")
+    if result.recipe is not None:
+        rec = result.recipe
+        w(f"\n3. Buffer: {rec.buffer}, 25 mM, pH {rec.ph:g} at {rec.temperature:g} deg C, 1 L:\n")
+        for c in rec.components:
+            w(f"   {c.action} {c.item}: {c.amount:.4g} {c.unit}\n")
+    w("\n4. Small molecules in the buffers at pH 7.4:\n")
+    for a in result.additives:
+        w(f"   {a['additive']}: {a['dominant form at pH 7.4']} (charge {a['charge']:+g}, "
+          f"{a['population']:.0%}); mean charge {a['mean charge']:+.2f}\n")  # fmt: skip
+    w("\nWrote:\n" + "".join(f"   {p}\n" for p in result.files))
+    w("\n" + CAUTION + "\n")
