@@ -30,7 +30,9 @@ def test_demo_runs_and_writes_its_files(tmp_path) -> None:
     mol = zwitter.from_sequence(target.sequence, conditions=cond)
     row = next(r for r in rows if r["id"] == TARGET_ID)
     assert abs(float(row["pI"]) - mol.isoelectric_point()) < 1e-6
-    others = [zwitter.from_sequence(r.sequence, conditions=cond) for r in records if r is not target]
+    others = [
+        zwitter.from_sequence(r.sequence, conditions=cond) for r in records if r is not target
+    ]
     plan = zwitter.plan_ion_exchange(mol, others, conditions=cond, stability=DEMO_STABILITY)
     assert f"{plan.exchanger} exchanger at pH {plan.working_ph:.1f}" in res.stdout
     html = (out / "report.html").read_text()

@@ -27,7 +27,7 @@ from .errors import ZwitterWarning
 __all__ = ["DemoResult", "run_demo", "DEMO_CONDITIONS", "DEMO_STABILITY", "ADDITIVES"]
 
 #: The invented lab's column conditions: cold room, 50 mM NaCl.
-DEMO_CONDITIONS = {"temperature": 4.0, "ionic_strength": 0.05}
+DEMO_CONDITIONS: dict[str, float] = {"temperature": 4.0, "ionic_strength": 0.05}
 #: The invented stability window of marinase (pH).
 DEMO_STABILITY = (6.0, 9.5)
 #: Small molecules in the lab's buffers (real reagents; SMILES from their structures).
@@ -72,7 +72,10 @@ def run_demo(folder: str | Path = "zwitter-demo") -> DemoResult:
     out = Path(folder)
     out.mkdir(parents=True, exist_ok=True)
     notes: list[str] = []
-    cond = Conditions(**DEMO_CONDITIONS)
+    cond = Conditions(
+        temperature=DEMO_CONDITIONS["temperature"],
+        ionic_strength=DEMO_CONDITIONS["ionic_strength"],
+    )
     fasta = demo_fasta()
     records = list(read_fasta(fasta))
     extract = score_fasta(fasta, ph=[5.0, 7.4, 9.0], conditions=cond)
@@ -111,7 +114,7 @@ def run_demo(folder: str | Path = "zwitter-demo") -> DemoResult:
                 imidazole = mol
     notes.extend(dict.fromkeys(str(w.message) for w in caught))
 
-    figures = {
+    figures: dict[str, Any] = {
         "plan.png": lambda p: plan_plot(plan, path=p),
         "extract_gel.png": lambda p: gel_plot(extract, highlight=[TARGET_ID], path=p),
         "marinase_vs_tag.png": lambda p: charge_plot(

@@ -77,8 +77,9 @@ def _lines(path: str | Path) -> Iterator[tuple[int, str]]:
 def read_fasta(path: str | Path) -> Iterator[Record]:
     """Yield the records of a FASTA file in order (streaming; memory independent of size).
 
-    Windows line endings are accepted. Blank lines and ';' comment lines are ignored. A '>' line with no sequence gives
-    a record with an empty sequence. Text before the first header gives one record with an error.
+    Windows line endings are accepted. Blank lines and ';' comment lines are ignored. A '>' line
+    with no sequence gives a record with an empty sequence. Text before the first header gives one
+    record with an error.
     """
     return _parse_fasta(_lines(path), str(path))
 

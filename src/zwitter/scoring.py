@@ -59,7 +59,9 @@ def score_composition(
     if sites is None:
         sites = comp.sites
     elif sites.n_molecules != len(comp.errors):
-        raise ValueError(f"sites has {sites.n_molecules} rows; the composition has {len(comp.errors)}")
+        raise ValueError(
+            f"sites has {sites.n_molecules} rows; the composition has {len(comp.errors)}"
+        )
     n = sites.n_molecules
     if n == 0:
         return ChunkScores(comp, grid, np.zeros(0), np.zeros((0, grid.size)), ())

@@ -80,7 +80,8 @@ def plot_charges(
     from ..inputs import molecule_from_text
     from ..plots import charge_plot
 
-    mols, names = [], []
+    mols: list[Any] = []
+    names: list[str] = []
     for ident, text, error in items:
         if error or len(mols) >= PLOT_LIMIT:
             continue

@@ -199,6 +199,7 @@ def scales(
     """List the packaged pKa scales and their sources (or the values of one scale)."""
     from ..scales import DEFAULT_SCALE, get_scale, list_scales
 
+    rows: list[dict[str, Any]]
     if key is None:
         rows = [
             {"scale": s.key + (" (default)" if s.key == DEFAULT_SCALE else ""), "kind": s.kind,
@@ -232,7 +233,8 @@ def scales(
 @app.command()
 def demo(
     out: Annotated[
-        Path, typer.Option("--out", "-o", help="Folder for the demo's output files.", file_okay=False)
+        Path,
+        typer.Option("--out", "-o", help="Folder for the demo's output files.", file_okay=False),
     ] = Path("zwitter-demo"),
 ) -> None:
     """Run the main jobs on built-in demo data (an invented purification scenario)."""
@@ -260,10 +262,10 @@ def demo(
     emit(rows, OutputFormat.table, title="1. The extract, ordered by pI")
     plan = result.plan
     if plan.exchanger:
+        there = float(plan.target.charge(plan.working_ph))
         w(
             f"\n2. Column: {plan.exchanger} exchanger at pH {plan.working_ph:.1f} "
-            f"(marinase pI {plan.pi:.2f}; charge there {float(plan.target.charge(plan.working_ph)):+.1f})."
-            "\n"
+            f"(marinase pI {plan.pi:.2f}; charge there {there:+.1f}).\n"
         )
         order = plan.elution_order()
         emit(
