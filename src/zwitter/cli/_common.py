@@ -10,13 +10,40 @@ from __future__ import annotations
 import enum
 import math
 import sys
+import warnings
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
-from typing import Annotated, Any
+from typing import Annotated, Any, TypeVar
 
 import typer
 
 from ..errors import ZwitterError
 from ._app import fail
+
+T = TypeVar("T")
+
+
+@contextmanager
+def cautions() -> Iterator[None]:
+    """Library warnings become one 'zwitter: warning:' line each on stderr."""
+    from ..errors import ZwitterWarning
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", ZwitterWarning)
+        yield
+    for text in dict.fromkeys(
+        str(w.message) for w in caught if issubclass(w.category, ZwitterWarning)
+    ):
+        sys.stderr.write(f"zwitter: warning: {text}\n")
+
+
+def run_or_fail(fn: Callable[[], T]) -> T:
+    """Call ``fn``; a ZwitterError becomes one line on stderr and exit 2."""
+    try:
+        return fn()
+    except ZwitterError as exc:
+        fail(str(exc))
 
 
 class CysMode(str, enum.Enum):
@@ -75,8 +102,6 @@ def plot_charges(
     conditions: Any,
 ) -> None:  # fmt: skip
     """Charge curves of the (good) inputs on one figure, written to ``path``."""
-    import warnings
-
     from ..inputs import molecule_from_text
     from ..plots import charge_plot
 
@@ -205,8 +230,6 @@ def score_items(
             rows[i] = {"note": f"record {ident!r}: {error}", "_bad": True}
             continue
         try:
-            import warnings
-
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
                 # the user's kind ("auto" by default), so that a mistyped sequence read as

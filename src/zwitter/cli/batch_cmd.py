@@ -17,15 +17,10 @@ import typer
 
 from ..errors import ParameterError, ZwitterError
 from ._app import EXIT_BAD_INPUT, EXIT_FAILURE, app, fail
-from ._common import IonicOpt, TempOpt, conditions_from, save_plot
+from ._common import CysMode, IonicOpt, TempOpt, conditions_from, save_plot
 
 #: Same as zwitter.batch.DEFAULT_CHUNK_SIZE (not imported here: the CLI starts without numpy).
 _DEFAULT_CHUNK_SIZE = 10_000
-
-
-class CysMode(str, enum.Enum):
-    free = "free"
-    bonded = "bonded"
 
 
 class EngineName(str, enum.Enum):

@@ -6,16 +6,13 @@ import enum
 import json
 import math
 import sys
-import warnings
-from collections.abc import Callable, Iterator
-from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Any, TypeVar
 
 import typer
 
-from ..errors import ZwitterError
 from ._app import app, fail
+from ._common import CysMode, cautions, run_or_fail
 from ._output import CAUTION, OutputFormat, emit
 
 T = TypeVar("T")
@@ -51,34 +48,6 @@ class Exchanger(str, enum.Enum):
     anion = "anion"
 
 
-class CysMode(str, enum.Enum):
-    free = "free"
-    bonded = "bonded"
-
-
-@contextmanager
-def _cautions() -> Iterator[None]:
-    """Library warnings become one 'zwitter: warning:' line each on stderr."""
-    from ..errors import ZwitterWarning
-
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", ZwitterWarning)
-        yield
-    seen = set()
-    for w in caught:
-        text = str(w.message)
-        if issubclass(w.category, ZwitterWarning) and text not in seen:
-            seen.add(text)
-            sys.stderr.write(f"zwitter: warning: {text}\n")
-
-
-def _run(fn: Callable[[], T]) -> T:
-    try:
-        return fn()
-    except ZwitterError as exc:
-        fail(str(exc))
-
-
 def _plain(value: Any) -> Any:
     """numpy scalars -> Python numbers (for JSON and the shared rounding)."""
     if hasattr(value, "item") and not isinstance(value, (str, bytes)):
@@ -95,7 +64,7 @@ def _rows(frame: Any) -> list[dict[str, Any]]:
 def _conditions(temp: float, ionic: float) -> Any:
     from ..conditions import Conditions
 
-    return _run(lambda: Conditions(temperature=temp, ionic_strength=ionic))
+    return run_or_fail(lambda: Conditions(temperature=temp, ionic_strength=ionic))
 
 
 @app.command()
@@ -165,7 +134,7 @@ def buffer(
             if exchanger is None
             else ("negative" if exchanger is Exchanger.cation else "positive")
         )
-        frame = _run(lambda: suitable_buffers(ph, cond, within=within, charge=charge))
+        frame = run_or_fail(lambda: suitable_buffers(ph, cond, within=within, charge=charge))
         keys = ["buffer", "step", "pka", "distance", "forms_present", "temperature_dependence"]
         if fmt is not OutputFormat.table:
             keys.append("notes")  # long: machines only (people see them with `zwitter buffer NAME`)
@@ -185,9 +154,9 @@ def buffer(
         )
         return
     if ph is None:
-        with _cautions():
-            buf = _run(lambda: get_buffer(name))
-            pkas = _run(lambda: buffer_pkas(name, cond))
+        with cautions():
+            buf = run_or_fail(lambda: get_buffer(name))
+            pkas = run_or_fail(lambda: buffer_pkas(name, cond))
         rows = [
             {
                 "buffer": buf.name,
@@ -201,8 +170,8 @@ def buffer(
         ]
         emit(rows, fmt, title=f"{buf.name} at {temp:g} C, I = {ionic:g} M", caption=buf.notes)
         return
-    with _cautions():
-        recipe = _run(
+    with cautions():
+        recipe = run_or_fail(
             lambda: buffer_recipe(
                 name,
                 ph=ph,
@@ -287,7 +256,7 @@ def plan(
     if input_file is not None:
         from ..fasta import read_sequences
 
-        records = _run(lambda: list(read_sequences(input_file)))
+        records = run_or_fail(lambda: list(read_sequences(input_file)))
         others.extend(("fasta", r.id, r.sequence) for r in records)
     options: dict[str, Any] = {"cys": cys.value}
     if scale is not None:
@@ -312,8 +281,8 @@ def plan(
             **options,
         )
 
-    with _cautions():
-        result = _run(build)
+    with cautions():
+        result = run_or_fail(build)
     if plot is not None:
         from ..plots import plan_plot
         from ._common import save_plot

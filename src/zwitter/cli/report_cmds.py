@@ -4,16 +4,14 @@ from __future__ import annotations
 
 import enum
 import sys
-import warnings
-from collections.abc import Callable, Iterator
-from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Any, TypeVar
 
 import typer
 
-from ..errors import ZwitterError
 from ._app import app, fail
+from ._common import CysMode, cautions, run_or_fail
+from ._common import InputKind as Kind
 
 T = TypeVar("T")
 
@@ -21,42 +19,9 @@ T = TypeVar("T")
 BATCH_SUFFIXES = (".fasta", ".fa", ".faa", ".fas", ".fna", ".mpfa", ".smi", ".smiles")
 
 
-class Kind(str, enum.Enum):
-    auto = "auto"
-    sequence = "sequence"
-    proforma = "proforma"
-    smiles = "smiles"
-
-
-class CysMode(str, enum.Enum):
-    free = "free"
-    bonded = "bonded"
-
-
 class FigureFormat(str, enum.Enum):
     png = "png"
     svg = "svg"
-
-
-@contextmanager
-def _cautions() -> Iterator[None]:
-    """Library warnings become one 'zwitter: warning:' line each on stderr."""
-    from ..errors import ZwitterWarning
-
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", ZwitterWarning)
-        yield
-    for text in dict.fromkeys(
-        str(w.message) for w in caught if issubclass(w.category, ZwitterWarning)
-    ):
-        sys.stderr.write(f"zwitter: warning: {text}\n")
-
-
-def _run(fn: Callable[[], T]) -> T:
-    try:
-        return fn()
-    except ZwitterError as exc:
-        fail(str(exc))
 
 
 def _batch_path(text: str) -> Path | None:
@@ -160,7 +125,7 @@ def report(
     """
     from ..conditions import Conditions
 
-    cond = _run(lambda: Conditions(temperature=temp, ionic_strength=ionic))
+    cond = run_or_fail(lambda: Conditions(temperature=temp, ionic_strength=ionic))
     if output.suffix.lower() not in (".html", ".htm"):
         raise typer.BadParameter(f"{str(output)!r} must end in .html", param_hint="--output")
     if not output.parent.is_dir():
@@ -226,9 +191,9 @@ def report(
         mol = molecule_from_text(source, kind=kind.value, conditions=cond, **options)
         return rp.molecule_report(mol, ph=ph or [7.4], title=title, figure_format=fmt)
 
-    with _cautions():
-        text = _run(build)
+    with cautions():
+        text = run_or_fail(build)
         from ..report import write_html
 
-        _run(lambda: write_html(text, output))
+        run_or_fail(lambda: write_html(text, output))
     sys.stderr.write(f"zwitter: wrote {output}\n")
