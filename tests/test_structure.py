@@ -24,7 +24,7 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
-from rdkit import Chem, RDConfig
+from rdkit import Chem, RDConfig, rdBase
 
 import zwitter
 from zwitter.errors import (
@@ -181,9 +181,25 @@ def test_reference_table_mean_absolute_error() -> None:
     assert {"carboxylic_acid", "phenol", "aniline", "pyridine", "amine_primary"} <= set(by_group)
 
 
+#: Peptide side-chain groups: their values are the peptide scale's (Thurlkill et al. 2006), and
+#: they are checked against the sequence path on the peptides of the peptide test below, not by
+#: rows of the small-molecule table (no handbook value of such a peptide was at hand).
+PEPTIDE_SIDE_CHAINS = {
+    "peptide_asp": "D",
+    "peptide_glu": "E",
+    "peptide_tyr": "Y",
+    "peptide_his": "H",
+    "peptide_lys": "K",
+    "peptide_arg": "R",
+}
+
+
 def test_reference_table_covers_every_group_type() -> None:
     covered = {g for row in ROWS for g in row["groups"].split()}
-    assert set(group_keys()) <= covered
+    assert set(group_keys()) - set(PEPTIDE_SIDE_CHAINS) <= covered
+    assert {"peptide_n_terminus", "peptide_c_terminus", "peptide_cys"} <= covered
+    for code in PEPTIDE_SIDE_CHAINS.values():  # the peptide test holds each of them
+        assert any(code in seq for seq in PEPTIDES), code
     assert len({r["name"] for r in ROWS}) >= 80
 
 
@@ -223,6 +239,28 @@ def test_ethylenediamine_crc() -> None:
 EDTA = "OC(=O)CN(CC(=O)O)CCN(CC(=O)O)CC(=O)O"
 
 
+NTA = "OC(=O)CN(CC(=O)O)CC(=O)O"
+
+
+def test_edta_carboxyl_steps_crc() -> None:
+    # CRC Handbook / Martell & Smith, Critical Stability Constants vol. 1: 0.0, 1.5, 2.00, 2.69 for
+    # the four carboxyls. The aminopolycarboxylic acid class takes its value from NTA (a
+    # calibration row), so EDTA is held out. Measured: 0.11, 0.83, 1.63, 2.34. The two lowest
+    # steps (measured in strong acid, one decimal) are held to 0.7, the other two to 0.5.
+    pred = from_smiles(EDTA).pkas()
+    assert [s.group.key for s in from_smiles(EDTA).structure_sites].count(
+        "aminopolycarboxylic_acid"
+    ) == 4
+    _close(pred[:2], [0.0, 1.5], 0.7)
+    _close(pred[2:4], [2.00, 2.69], 0.5)
+
+
+def test_nta_carboxyl_steps_crc() -> None:
+    # CRC / Martell & Smith: 1.0, 1.89, 2.49 (the class value is their least-squares fit, so this
+    # checks the spread the coupling gives three arms on one N). Measured: 0.64, 1.79, 2.94.
+    _close(from_smiles(NTA).pkas()[:3], [1.0, 1.89, 2.49], 0.5)
+
+
 def test_edta_amine_steps_crc() -> None:
     # CRC Handbook / Martell & Smith, Critical Stability Constants vol. 1: 6.13 and 10.37 for the
     # two amine steps (the highest two of 0.0, 1.5, 2.00, 2.69, 6.13, 10.37). Measured error 0.6.
@@ -231,12 +269,25 @@ def test_edta_amine_steps_crc() -> None:
 
 
 @pytest.mark.xfail(
-    reason="EDTA: carboxyl steps come out about 1.2 too high and the amine steps 0.6 off; "
-    "the additive Taft terms over-count several carboxymethyl arms on one N (see README)",
+    reason="EDTA amine steps 6.75 and 9.78 against 6.13 and 10.37 (0.62 and 0.59 off; the two "
+    "carboxyl steps checked here are within 0.4): for two equivalent amines a pairwise coupling "
+    "model gives a spread of w + log10 4 = 3.03 with w fitted on ethylenediamine (spread 3.08), "
+    "while EDTA's is 4.24, so one of the two steps is at least 0.6 off whatever the intrinsic "
+    "values (see README)",
     strict=True,
 )
 def test_edta_all_steps_within_half_a_unit() -> None:
     _close(from_smiles(EDTA).pkas()[2:], [2.00, 2.69, 6.13, 10.37], 0.5)
+
+
+@pytest.mark.xfail(
+    reason="NTA amine step 8.53 against 9.73: the additive Taft terms of three carboxymethyl arms "
+    "(-2.21 each) over-count; saturating them fixes NTA but moves EDTA's lower amine step to 1.3 "
+    "off (the two amines need different treatment in a pairwise model; see README)",
+    strict=True,
+)
+def test_nta_amine_step_within_half_a_unit() -> None:
+    _close(from_smiles(NTA).pkas()[3:], [9.73], 0.5)
 
 
 def test_free_amino_acids_lehninger() -> None:
@@ -542,6 +593,9 @@ def test_large_molecules_fall_back_to_mean_field_with_a_warning() -> None:
 
 
 # -- peptides drawn as SMILES --------------------------------------------------------------------
+#: Standard peptides, drawn as SMILES by RDKit (Chem.MolFromSequence -> MolToSmiles), every one of
+#: them checked (none left out): the first 13 were chosen when the structure path was written,
+#: the other 14 when the peptide rows were added.
 PEPTIDES = [
     "GG",
     "AK",
@@ -556,27 +610,123 @@ PEPTIDES = [
     "EAAAK",
     "CGYGPKKKRKVGG",
     "DRVYIHPF",
+    "RPKPQQFFGLM",
+    "CYIQNCPLG",
+    "EEEE",
+    "DAHK",
+    "DYKDDDDK",
+    "KLVFFAE",
+    "CDPGYIGSR",
+    "HSQGTFTSDYSKYLDSRRAQDFVQWLMNT",
+    "HGEGTFTSDVSSYLEGQAAKEFIAWLVKGR",
+    "YEEEEY",
+    "KEKEKEKE",
+    "HHHHHH",
+    "DDDDDDDDDD",
+    "GSHMCCKK",
 ]
+_RESIDUE_GROUP = {v: k for k, v in PEPTIDE_SIDE_CHAINS.items()} | {"C": "peptide_cys"}
 
 
-def test_peptides_as_smiles_agree_with_the_sequence_path() -> None:
-    # Sequence path with the Thurlkill et al. 2006 scale (measured in pentapeptides).
-    diffs = {}
-    for seq in PEPTIDES:
-        smi = Chem.MolToSmiles(Chem.MolFromSequence(seq))
-        m = _quiet(smi)
-        keys = sorted(s.group.key for s in m.structure_sites)
-        assert keys.count("amine_primary") == 1 + seq.count("K"), seq
-        assert keys.count("guanidine") == seq.count("R") and keys.count("thiol") == seq.count("C")
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", ZwitterWarning)
-            ref = zwitter.from_sequence(seq, scale="thurlkill").isoelectric_point()
-        pi = m.isoelectric_point()
-        assert pi is not None and ref is not None
-        diffs[seq] = abs(pi - ref)
-    assert float(np.mean(list(diffs.values()))) <= 0.3, diffs
-    assert max(diffs.values()) <= 0.6, diffs
-    assert sum(v <= 0.3 for v in diffs.values()) >= 8, diffs  # measured: 9 of 13
+def _peptide_pis(seq: str) -> tuple[StructureMolecule, float, float]:
+    m = _quiet(Chem.MolToSmiles(Chem.MolFromSequence(seq)))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ZwitterWarning)
+        ref = zwitter.from_sequence(seq, scale="thurlkill").isoelectric_point()
+    pi = m.isoelectric_point()
+    assert pi is not None and ref is not None
+    return m, pi, ref
+
+
+@pytest.mark.parametrize("seq", PEPTIDES)
+def test_peptide_as_smiles_agrees_with_the_sequence_path(seq: str) -> None:
+    # The sequence path with the Thurlkill et al. 2006 scale (alanine pentapeptides), whose values
+    # the peptide rows of ionizable_groups.csv carry: the same groups, the pI within 0.3.
+    m, pi, ref = _peptide_pis(seq)
+    expected = ["peptide_n_terminus", "peptide_c_terminus"] + [
+        _RESIDUE_GROUP[a] for a in seq if a in _RESIDUE_GROUP
+    ]
+    assert sorted(s.group.key for s in m.structure_sites) == sorted(expected)
+    assert abs(pi - ref) <= 0.3, (seq, pi, ref)
+
+
+def test_peptide_path_agreement_summary() -> None:
+    # Measured with coupling_peptide 0.45: mean 0.08, max 0.28 (DE, DAHK, glucagon) over the 27.
+    diffs = np.array([abs(p - r) for _, p, r in (_peptide_pis(s) for s in PEPTIDES)])
+    assert len(diffs) >= 10 and float(diffs.mean()) <= 0.15
+
+
+def test_peptide_rows_take_the_scale_values_and_say_so() -> None:
+    m = from_smiles(Chem.MolToSmiles(Chem.MolFromSequence("AKA")))
+    t = m.site_table(7.0).set_index("group")
+    assert float(t.loc["peptide_lys", "base_pka"]) == 10.4  # Thurlkill et al. 2006, Lys
+    assert float(t.loc["peptide_n_terminus", "base_pka"]) == 8.0
+    assert float(t.loc["peptide_c_terminus", "base_pka"]) == 3.67
+    assert "Thurlkill et al. 2006" in t.loc["peptide_lys", "base_source"]
+    assert t.loc["peptide_lys", "corrections"] == ""  # the backbone is in the measured value
+    # the coupling between two residues is scaled (lfer_reactions.csv row coupling_peptide)
+    assert "coupling_peptide" in m.coupling.source
+
+
+def test_free_amino_acids_keep_the_generic_rows() -> None:
+    # A free amino acid is not a peptide residue: lysine's amines are generic primary amines.
+    keys = sorted(s.group.key for s in from_smiles("NCCCC[C@H](N)C(=O)O").structure_sites)
+    assert keys == ["amine_primary", "amine_primary", "carboxylic_acid"]
+
+
+def test_screens_skip_rows_without_changing_what_is_found(monkeypatch: pytest.MonkeyPatch) -> None:
+    # A row's screen (ionizable_groups.csv) is a speed-up only: detection with every screen
+    # removed finds the same sites, on the reference table, the peptides and RDKit's NCI sample.
+    import dataclasses
+
+    import zwitter.structure as zs
+
+    with open(NCI, encoding="utf-8") as fh:
+        nci = [x.split()[0] for x in fh if x.strip()][:600]
+    smiles = [r["smiles"] for r in ROWS] + [
+        Chem.MolToSmiles(Chem.MolFromSequence(s)) for s in PEPTIDES
+    ]
+    with rdBase.BlockLogs():  # a few NCI rows do not parse: RDKit's own messages stay quiet
+        mols = [m for m in (Chem.MolFromSmiles(s) for s in smiles + nci) if m is not None]
+    assert any(g.screen for g in zs.group_types())
+
+    def found(m: Any) -> list[tuple[str, tuple[int, ...]]]:
+        return [(g.key, atoms) for g, atoms, _ in zs._detect(m, zs._elements(m))]
+
+    with_screens = [found(m) for m in mols]
+    plain = tuple(dataclasses.replace(g, screen="", screen_query=None) for g in zs.group_types())
+    monkeypatch.setattr(zs, "group_types", lambda: plain)
+    assert [found(m) for m in mols] == with_screens
+
+
+@pytest.mark.parametrize(
+    ("smiles", "groups"),
+    [
+        # Ala-Orn-Ala: ornithine's delta-amine is not a Lys side chain -> the generic amine row
+        (
+            "C[C@H](N)C(=O)N[C@@H](CCCN)C(=O)N[C@@H](C)C(=O)O",
+            ["amine_primary", "peptide_c_terminus", "peptide_n_terminus"],
+        ),
+        # Ac-Lys(Ac)-NH2: an acetylated Lys has no amine left; blocked termini give no site
+        ("CC(=O)NCCCC[C@H](NC(C)=O)C(N)=O", []),
+        # Gly-Sar (N-methylglycine C-terminal): still a peptide C-terminus
+        ("NCC(=O)N(C)CC(=O)O", ["peptide_c_terminus", "peptide_n_terminus"]),
+        # Pro-Gly: proline's secondary alpha-amine is an N-terminus
+        ("O=C(O)CNC(=O)[C@@H]1CCCN1", ["peptide_c_terminus", "peptide_n_terminus"]),
+    ],
+)
+def test_non_natural_and_blocked_residues(smiles: str, groups: list[str]) -> None:
+    assert sorted(s.group.key for s in _quiet(smiles).structure_sites) == groups
+
+
+def test_ring_substituents_still_correct_a_tyrosine() -> None:
+    # 3-nitrotyrosine in a peptide: the Tyr row keeps its Hammett class; the nitro group ortho
+    # to the OH lowers it (ortho takes the para constant, -2.23 x 1.27). Reference: the phenol of
+    # 3-nitrotyrosine is about 7.2 (from memory; source not recalled).
+    m = from_smiles("C[C@H](N)C(=O)N[C@@H](Cc1ccc(O)c(c1)[N+](=O)[O-])C(=O)N[C@@H](C)C(=O)O")
+    tyr = next(s for s in m.structure_sites if s.group.key == "peptide_tyr")
+    assert tyr.pkas[0] == pytest.approx(9.84 - 2.23 * 1.27, abs=0.01)
+    assert abs(tyr.pkas[0] - 7.2) < 0.5
 
 
 # -- files ---------------------------------------------------------------------------------------

@@ -17,7 +17,8 @@ carries the rest. For two charges a distance d bonds apart,
 
 with one (A, f) pair for two anions, one for two cations and one for opposite charges
 (lfer_reactions.csv, rows ``coupling_*``), and ``paths`` the number of shortest bond paths (at
-most 3: both ways round a ring).
+most 3: both ways round a ring). Between two residues of a peptide (both sites of the group family
+``peptide``) w is multiplied by the factor of row ``coupling_peptide`` (:attr:`Coupling.peptide`).
 
 Grouping microstates by L gives the binding polynomial (by protons bound, T - L): the macroscopic
 pKa values are pKa_L = log10 Z_(L-1) - log10 Z_L with Z_L = sum over microstates with L protons
@@ -67,7 +68,9 @@ class Coupling:
     """Pairwise interaction of two charges, in pK units per unit charge product.
 
     ``w(d) = amplitude * attenuation**(d - d0)`` with one (amplitude, attenuation) pair for two
-    anions, one for two cations and one for opposite charges.
+    anions, one for two cations and one for opposite charges. ``peptide`` scales the interaction
+    of two sites that are both residues of a peptide (group family ``peptide``; the structure
+    reader applies it, see ``lfer_reactions.csv`` row ``coupling_peptide``).
 
     Examples
     --------
@@ -81,6 +84,7 @@ class Coupling:
     opposite: tuple[float, float]
     d0: float
     source: str = ""
+    peptide: float = 1.0
 
     def strength(self, d: npt.ArrayLike, pair: str = "anion") -> FloatArray:
         """w at topological distance ``d`` (bonds) for ``pair`` = anion, cation or opposite.
@@ -112,13 +116,15 @@ def default_coupling() -> Coupling:
         d0s.add(r.number("d0"))
     if len(d0s) != 1:
         raise ValueError("lfer_reactions.csv: the coupling rows must share d0")
+    peptide = rows["coupling_peptide"].number("rho") if "coupling_peptide" in rows else 1.0
     return Coupling(
         pairs["anion"],
         pairs["cation"],
         pairs["opposite"],
         d0s.pop(),
         "site coupling fitted here (lfer_reactions.csv, rows coupling_anion, coupling_cation, "
-        "coupling_opposite)",
+        "coupling_opposite; coupling_peptide between two peptide residues)",
+        peptide,
     )
 
 

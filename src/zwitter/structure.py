@@ -25,6 +25,12 @@ The path from a structure to its charge:
    falls with the number of bonds between them; microstates are enumerated exactly (up to 2**16),
    giving populations, the dominant form as a SMILES, macroscopic pKa values and the pI.
 
+Peptides drawn as SMILES: the residues of a peptide (alpha-amine and alpha-carboxyl of the termini,
+the ionizable side chains of a residue whose alpha carbon carries an amide bond) have their own rows
+(family ``peptide``, the values of the Thurlkill et al. 2006 peptide scale) above the generic ones;
+two of them couple at the reduced strength of ``lfer_reactions.csv`` row ``coupling_peptide``.
+A non-natural residue gives whatever generic groups it contains.
+
 Known limits (documented in data/reference/README.md with measured errors): no tautomer
 normalisation (a group is recognised in the tautomer drawn), ortho substituents use para constants,
 no geometry (cis/trans diacids look alike), multiple halogens on one carbon are over-counted.
@@ -133,9 +139,16 @@ class GroupType:
     claims: tuple[int, ...]  # positions of atoms the site claims without titrating them (map 9)
     requires: frozenset[int]
     line: int = 0
+    family: str = ""  # "peptide": residues of a peptide (their pairwise coupling is scaled)
+    screen: str = ""  # SMARTS every match contains: a molecule without it skips the row
+    screen_query: Any = field(default=None, repr=False)
 
     def __post_init__(self) -> None:
         where = f"zwitter/data/{_GROUPS_FILE}"
+        if self.family not in ("", "peptide"):
+            raise ScaleError(
+                f"family must be empty or peptide, got {self.family!r}", where, self.line, "family"
+            )
         if self.kind not in ("acid", "base"):
             raise ScaleError(
                 f"kind must be acid or base, got {self.kind!r}", where, self.line, "kind"
@@ -253,6 +266,9 @@ def group_types() -> tuple[GroupType, ...]:
                 claims,
                 _required_elements(q),
                 r.line,
+                r["family"],
+                r["screen"],
+                _query(r["screen"], r, "screen") if r["screen"] else None,
             )
         )
     order = sorted(range(len(out)), key=lambda i: (-out[i].priority, i))
@@ -593,9 +609,16 @@ def _detect(
             present |= keys
     claimed: set[int] = set()
     found = []
+    screened: dict[str, bool] = {}  # screen SMARTS -> does the molecule contain it
     for g in group_types():
         if g.key not in present or not g.requires <= elements:
             continue
+        if g.screen_query is not None:
+            ok = screened.get(g.screen)
+            if ok is None:
+                ok = screened[g.screen] = bool(mol.HasSubstructMatch(g.screen_query))
+            if not ok:
+                continue
         matches = mol.GetSubstructMatches(g.query, params)
         if not matches:
             continue
@@ -896,6 +919,13 @@ def _coupling_inputs(an: _Analysis, coupling: Coupling) -> tuple[PairTable, Pair
                 src, dst = int(ai[flat // aj.size]), int(aj[flat % aj.size])
                 paths[i, j] = paths[j, i] = max(1, _count_paths(an.mol, dm, src, dst, 3))
     pairs = coupling_matrix(dist, paths, coupling)
+    if coupling.peptide != 1.0:
+        # Two residues of a peptide interact more weakly than small-molecule sites at the same
+        # bond distance (lfer_reactions.csv row coupling_peptide, fitted on peptide data).
+        pep = np.array([s.group.family == "peptide" for s in an.sites])
+        if pep.sum() > 1:
+            scale = np.where(np.outer(pep, pep), coupling.peptide, 1.0)
+            pairs = PairTable(pairs.anion * scale, pairs.cation * scale, pairs.opposite * scale)
     fdist = np.full((k, p), np.inf)
     fpaths = np.ones((k, p))
     for i in range(k):
