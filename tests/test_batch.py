@@ -13,6 +13,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from typer.testing import CliRunner
 
 import zwitter
@@ -509,3 +511,124 @@ def test_old_mac_line_endings(tmp_path: Path) -> None:
     df = zb.score_fasta(path)
     assert list(df["id"]) == ["a", "b"] and list(df["description"]) == ["one", ""]
     assert list(df["length"]) == [5, 3]
+
+
+# -- the array reader of FASTA blocks --------------------------------------------------------------
+# Most blocks are read without a Python string per record (ids, descriptions and sequences are cut
+# out of the block's bytes with array operations). It must give exactly what the record-by-record
+# reader gives (parse_fasta_block + score_columns: str.split / str.strip semantics for headers,
+# compose for sequences), down to the bytes written.
+PLAIN_BLOCKS = [
+    b">sp|P1|A_HUMAN Protein A OS=Homo sapiens\nMKWVTFISLL\nFLFSSAYS\n>b\nDEKR\n",
+    b">a one\r\nMKW\r\nVT\r\n>b  two  words \r\nDEK\r\n",  # Windows line ends
+    b"\n\n  \n>after_blank_lines x\nMK\n",  # blank text before the first header is not a record
+    b">\nGGKK\n>   \nDD\n>x\n>last_header_only",  # no id; header-only records
+    # every ASCII byte that str.split takes for a space
+    b">\x1ct\x1dab\x0bvt\x0cff\x1efs\x1fus desc \x1f\t\n MK DE \n\n\n",
+    b'>q"uote, comma "x" d,e\nKKK\n>nul\x00in_id\nMK\n',
+    b">caf\xc3\xa9 cr\xc3\xa8me br\xc3\xbbl\xc3\xa9e\nMK\n>nbsp\xc2\xa0id \xc2\x85next\nDE\n",
+    b">bad\xff\xfeutf8 x\xe9y\nMK\n>ok\nMK\xe9DE\n>stop\nMK*DE\n>end*\nMKDE*\n>x\nXXMK\n",
+    b">nuc looks nucleotide\nACGTACGTACGTACGTACGTACGTNNAC\n>uz\nUBZJO\n>low\nmkdekr\n",
+]
+
+
+def _both_readers(data: bytes, options: zb.BatchOptions) -> tuple[zb.Columns, zb.Columns]:
+    block = zb.Block("in.fasta", 0, data, 7, 0, zb._score_fasta_block)
+    fast = zb._score_plain_fasta_block(block, options)
+    recs = zb.parse_fasta_block(block)
+    slow = zb.score_columns(
+        recs.sequences, recs.ids, recs.descriptions, options,
+        input_name=block.source, lines=recs.lines, record_errors=recs.errors,
+    )  # fmt: skip
+    assert fast is not None
+    return fast, slow
+
+
+def _assert_same_rows(fast: zb.Columns, slow: zb.Columns, options: zb.BatchOptions) -> None:
+    schema = zb._arrow_schema(zb.output_columns(options))
+    assert zb.to_arrow(fast, schema).equals(zb.to_arrow(slow, schema))
+    pd.testing.assert_frame_equal(zb.to_frame(fast, options), zb.to_frame(slow, options))
+    for fmt in ("csv", "tsv", "jsonl"):
+        assert zb.encode_rows(fast, fmt, options) == zb.encode_rows(slow, fmt, options), fmt
+
+
+@pytest.mark.parametrize("data", PLAIN_BLOCKS)
+@pytest.mark.parametrize("kw", [{}, {"scale": "bjellqvist", "cys": "bonded", "ph": [3.0, 9.0]}])
+def test_array_reader_equals_the_record_reader(data: bytes, kw: dict[str, object]) -> None:
+    options = zb._canonical(zb.make_options(**kw))  # type: ignore[arg-type]
+    fast, slow = _both_readers(data, options)
+    _assert_same_rows(fast, slow, options)
+
+
+@pytest.mark.parametrize(
+    "data",
+    [
+        b">a one\rMKW\rVT\r>b\rDEK\r",  # old Mac line ends
+        b">a\r\nMK\r>b\nDE\n",  # mixed line ends
+        b"MKV\n>a\nDE\n",  # text before the first header: a record with an error
+        b"  \n",
+    ],
+)
+def test_array_reader_leaves_odd_blocks_to_the_record_reader(data: bytes) -> None:
+    block = zb.Block("in.fasta", 0, data, 1, 0, zb._score_fasta_block)
+    assert zb._score_plain_fasta_block(block, zb._canonical(zb.make_options())) is None
+
+
+@settings(max_examples=120, deadline=None)
+@given(
+    st.lists(
+        st.tuples(
+            st.lists(
+                st.sampled_from(["a", "Z9", " ", "\t", "\x1c", "é", "\xa0", "|", '"']), max_size=8
+            ).map("".join),
+            st.lists(
+                st.sampled_from(
+                    ["MK", "d", "E", "*", " ", "\n", "\n\n", "X", "U", "1", "\x00", "\xe9", ">"]
+                ),
+                max_size=12,
+            ).map("".join),
+        ),
+        min_size=1,
+        max_size=8,
+    ),
+    st.booleans(),
+)
+def test_array_reader_equals_the_record_reader_on_any_records(
+    records: list[tuple[str, str]], crlf: bool
+) -> None:
+    data = "".join(f">{h}\n{s}\n" for h, s in records).encode("utf-8", errors="surrogatepass")
+    if crlf:
+        data = data.replace(b"\r", b"").replace(b"\n", b"\r\n")
+    options = zb._canonical(zb.make_options(ph=[7.0, 7.4]))
+    block = zb.Block("in.fasta", 0, data, 1, 0, zb._score_fasta_block)
+    if zb._score_plain_fasta_block(block, options) is not None:
+        _assert_same_rows(*_both_readers(data, options), options)
+
+
+def test_text_column_round_trip() -> None:
+    values = ["", "a", "é€", "", "id|x"]
+    col = zb.TextColumn.from_strings(values)
+    assert col.tolist() == values and len(col) == 5 and col[2] == "é€" and col[-1] == "id|x"
+    assert zb.TextColumn.repeat("in.fa", 3).tolist() == ["in.fa"] * 3
+    assert zb.TextColumn.from_strings(["", ""]).tolist() == ["", ""]
+    with pytest.raises(TypeError):
+        zb.TextColumn.from_strings(["a", None])  # type: ignore[list-item]
+
+
+def test_csv_output_does_not_import_pandas(tmp_path: Path) -> None:
+    """pandas costs a fresh process about 0.3 s to import; CSV output does not need it."""
+    import subprocess
+    import sys
+
+    out = tmp_path / "s.csv"
+    code = (
+        "import sys, zwitter.batch as zb; "
+        f"zb.score_files([{str(PROTEINS)!r}], {str(out)!r}, ph=[7.0, 7.4]); "
+        "print('pandas' in sys.modules)"
+    )
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert res.stdout.strip() == "False"
+    expected = zb.score_fasta(PROTEINS, ph=[7.0, 7.4])
+    got = pd.read_csv(out, keep_default_na=False, na_values={"pI": [""], "length": [""]})
+    assert list(got["id"]) == list(expected["id"])
+    assert np.allclose(got["charge_ph7.4"], expected["charge_ph7.4"], rtol=0, atol=1e-12)

@@ -118,3 +118,152 @@ def test_properties_for_sequences(seq: str, ph: float) -> None:
     assert -acids <= m.charge(ph) <= bases
     pi = m.isoelectric_point()
     assert pi is not None and abs(m.charge(pi)) < 1e-6
+
+
+# -- compose_spans: compose of sequences read where they lie in a buffer --------------------------
+# The reference is compose() itself on the decoded spans: compose_spans is its faster twin for
+# FASTA blocks, and every field of the Composition must match (errors with their positions).
+def _assert_same_composition(got, want) -> None:  # type: ignore[no-untyped-def]
+    assert got.layout is want.layout
+    for name in ("counts", "lengths", "unknown", "letters"):
+        a, b = getattr(got, name), getattr(want, name)
+        assert a.dtype == b.dtype and a.shape == b.shape, name
+        assert np.array_equal(a, b), name
+    assert [None if e is None else (str(e), e.position, e.character) for e in got.errors] == [
+        None if e is None else (str(e), e.position, e.character) for e in want.errors
+    ]
+
+
+def _spans_and_texts(pieces: list[tuple[bytes, bytes]]) -> tuple[bytes, list[int], list[int]]:
+    data, lo, hi = b"", [], []
+    for gap, seq in pieces:
+        data += gap
+        lo.append(len(data))
+        data += seq
+        hi.append(len(data))
+    return data, lo, hi
+
+
+SPAN_CASES = [
+    # (gap before, sequence bytes): FASTA-like lines, blank space at both ends, CR LF, a final
+    # stop and one inside, lower case, empty and blank records, ambiguous letters, bad bytes
+    [(b">a x\n", b"MKWVTFISLL\nFLFSSAYS\n"), (b">b\n", b"DEKRHCY\n")],
+    [(b">c\r\n", b"mkdE\r\nkr*\r\n"), (b">d\n", b"  \n\n"), (b">e\n", b"")],
+    [(b"", b"K"), (b"", b"D"), (b"hdr", b"*"), (b"", b"MK*DE"), (b"", b"M K\tW\x0bV\x0cT")],
+    [
+        (b">f\n", b"BZJOUX\n"),
+        (b">g\n", b"MK1DE\n"),
+        (b">h\xc3\xa9\n", b"MK\xe9DE\n"),
+        (b"", b"\xc3\xa9"),
+    ],
+    [(b">i\n", b"M\x00K"), (b">j\n", b"GG\n")],  # a NUL: compose names the original character
+    [(b">j\n", b" " * 30 + b"GK" + b"\n" * 30), (b">k\n", b"GGKK**"), (b">l\n", b"E*\n ")],
+]
+
+
+@pytest.mark.parametrize("pieces", SPAN_CASES)
+@pytest.mark.parametrize("scale", [None, "bjellqvist"])
+def test_compose_spans_equals_compose(pieces: list[tuple[bytes, bytes]], scale: str | None) -> None:
+    from zwitter.sequence import compose_spans
+
+    sc = zwitter.get_scale(scale)
+    data, lo, hi = _spans_and_texts(pieces)
+    texts = [data[a:b].decode("utf-8", errors="replace") for a, b in zip(lo, hi)]
+    ids = [f"r{i}" for i in range(len(lo))]
+    _assert_same_composition(compose_spans(data, lo, hi, sc, ids), compose(texts, sc, ids))
+    _assert_same_composition(compose_spans(data, lo, hi, sc), compose(texts, sc))
+
+
+def test_compose_spans_on_a_scale_without_selenocysteine(tmp_path) -> None:
+    from zwitter.sequence import compose_spans
+
+    path = tmp_path / "nou.csv"
+    path.write_text(
+        "group,context,pka\nNterm,,9\nCterm,,2\nD,,4\nE,,4\nC,,8\nY,,10\nH,,6\nK,,10\nR,,12\n"
+    )
+    sc = zwitter.get_scale(path)
+    data, lo, hi = _spans_and_texts([(b">a\n", b"GUG\n"), (b">b\n", b"gug"), (b">c\n", b"GG")])
+    texts = [data[a:b].decode() for a, b in zip(lo, hi)]
+    got = compose_spans(data, lo, hi, sc, ["a", "b", "c"])
+    _assert_same_composition(got, compose(texts, sc, ["a", "b", "c"]))
+    assert got.errors[1] is not None and got.errors[1].position == 2 and got.errors[2] is None
+
+
+def test_compose_spans_across_internal_blocks() -> None:
+    """More residues than one internal run (BLOCK_RESIDUES) and more rows than 16-bit keys hold."""
+    from zwitter.sequence import BLOCK_RESIDUES, compose_spans
+
+    rng = np.random.default_rng(11)
+    letters = np.frombuffer(b"ACDEFGHIKLMNPQRSTVWYacdeky", dtype=np.uint8)
+    pieces = []
+    for i in range(3000):
+        n = int(rng.integers(0, 200)) if i % 1000 else BLOCK_RESIDUES - 1000
+        seq = rng.choice(letters, size=n).tobytes()
+        pieces.append((b">r%d\n" % i, b"\n".join(seq[j : j + 60] for j in range(0, n, 60)) + b"\n"))
+    data, lo, hi = _spans_and_texts(pieces)
+    sc = zwitter.get_scale(None)
+    texts = [data[a:b].decode() for a, b in zip(lo, hi)]
+    _assert_same_composition(compose_spans(data, lo, hi, sc), compose(texts, sc))
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    st.lists(
+        st.tuples(
+            st.binary(max_size=4),
+            st.lists(
+                st.sampled_from(
+                    [
+                        b"A",
+                        b"K",
+                        b"d",
+                        b"E",
+                        b"C",
+                        b"U",
+                        b"X",
+                        b"B",
+                        b"*",
+                        b" ",
+                        b"\n",
+                        b"\r",
+                        b"\t",
+                        b"1",
+                        b"\x00",
+                        b"\xe9",
+                        b"\xc3\xa9",
+                        b">",
+                    ]
+                ),
+                max_size=30,
+            ).map(b"".join),
+        ),
+        max_size=12,
+    )
+)
+def test_compose_spans_equals_compose_on_any_bytes(pieces: list[tuple[bytes, bytes]]) -> None:
+    from zwitter.sequence import compose_spans
+
+    sc = zwitter.get_scale(None)
+    data, lo, hi = _spans_and_texts(pieces)
+    texts = [data[a:b].decode("utf-8", errors="replace") for a, b in zip(lo, hi)]
+    ids = [f"r{i}" for i in range(len(lo))]
+    _assert_same_composition(compose_spans(data, lo, hi, sc, ids), compose(texts, sc, ids))
+
+
+def test_compose_spans_checks_its_spans() -> None:
+    from zwitter.sequence import compose_spans
+
+    sc = zwitter.get_scale(None)
+    with pytest.raises(ValueError, match="in order, without overlapping"):
+        compose_spans(b"MKDEMK", [0, 2], [4, 6], sc)
+    with pytest.raises(ValueError, match="in order, without overlapping"):
+        compose_spans(b"MK", [0], [3], sc)
+    with pytest.raises(ValueError, match="2 span starts but 1 span ends"):
+        compose_spans(b"MK", [0, 1], [1], sc)
+    assert compose_spans(b"", [], [], sc).counts.shape == (0, sc_cols(sc))
+
+
+def sc_cols(sc) -> int:  # type: ignore[no-untyped-def]
+    from zwitter.sequence import layout_for
+
+    return layout_for(sc).sites.n_types

@@ -38,6 +38,7 @@ __all__ = [
     "Composition",
     "layout_for",
     "compose",
+    "compose_spans",
     "clean_sequence",
     "sites_for_sequence",
     "from_sequence",
@@ -131,7 +132,9 @@ def layout_for(scale: Scale) -> SiteLayout:
         if context in ("Nterm", "Cterm"):
             for letter in (group, group.lower()):
                 (side_n if context == "Nterm" else side_c)[ord(letter)] = col
-    layout = SiteLayout(scale, template, weights, nterm, cterm, side, side_n, side_c, "U" in scale.pka)
+    layout = SiteLayout(
+        scale, template, weights, nterm, cterm, side, side_n, side_c, "U" in scale.pka
+    )
     _LAYOUTS[id(scale)] = layout
     return layout
 
@@ -187,7 +190,9 @@ def _real_char(text: str, cleaned_pos: int) -> str:
 BLOCK_RESIDUES = 1 << 19
 
 
-def compose(sequences: Sequence[str], scale: Scale, records: Sequence[str] | None = None) -> Composition:
+def compose(
+    sequences: Sequence[str], scale: Scale, records: Sequence[str] | None = None
+) -> Composition:
     """Count the sites of many sequences in one vectorised pass (see module docstring).
 
     Long inputs are processed in blocks of about :data:`BLOCK_RESIDUES` residues (whole
@@ -307,6 +312,202 @@ def _compose_block(
     return Composition(layout, counts, lengths, tuple(errors), unknown, letters)
 
 
+# Codes for compose_spans: as _COMPACT, but whitespace is 0 (an ignored column; the bytes stay in
+# place, so positions in the buffer keep their meaning) and NUL is an invalid byte like any other.
+_SPAN_CODES = bytearray(_COMPACT)
+for _byte in _WHITESPACE:
+    _SPAN_CODES[_byte] = 0
+_SPAN_CODES[0] = _BAD
+_SPAN_TABLE = bytes(_SPAN_CODES)
+del _SPAN_CODES, _byte
+#: Blank bytes at the ends of a span skipped by vectorised steps; longer runs go row by row.
+_EDGE_STEPS = 8
+
+
+def _skip_blank(
+    code: npt.NDArray[np.uint8],
+    pos: npt.NDArray[np.int64],
+    stop: npt.NDArray[np.int64],
+    step: int,
+) -> npt.NDArray[np.int64]:
+    """Each position moved by ``step`` while it is on whitespace (code 0), at most to ``stop``."""
+    pos = pos.copy()
+
+    def inside(p: npt.NDArray[np.int64]) -> npt.NDArray[np.bool_]:
+        return p < stop if step > 0 else p > stop
+
+    for _ in range(_EDGE_STEPS):
+        move = inside(pos)
+        move[move] = code[pos[move]] == 0
+        if not move.any():
+            return pos
+        pos[move] += step
+    for r in np.flatnonzero(inside(pos)).tolist():
+        if code[pos[r]] != 0:
+            continue
+        if step > 0:
+            nz = np.flatnonzero(code[pos[r] : stop[r]])
+            pos[r] = pos[r] + nz[0] if nz.size else stop[r]
+        else:
+            nz = np.flatnonzero(code[stop[r] + 1 : pos[r] + 1])
+            pos[r] = stop[r] + 1 + nz[-1] if nz.size else stop[r]
+    return pos
+
+
+def _in_spans(
+    positions: npt.NDArray[np.intp], lo: npt.NDArray[np.int64], hi: npt.NDArray[np.int64]
+) -> list[int]:
+    """Rows (ascending, once each) whose span [lo, hi) holds one of the ``positions``."""
+    row = np.searchsorted(hi, positions, side="right")
+    inside = (row < lo.size) & (lo[np.minimum(row, lo.size - 1)] <= positions)
+    rows: list[int] = np.unique(row[inside]).tolist()
+    return rows
+
+
+_RUN_ROWS = (1 << 16) // 32 - 1  # rows per run whose (slot << 5 | code) keys fit in 16 bits
+
+
+def _runs(lo: npt.NDArray[np.int64], hi: npt.NDArray[np.int64]) -> list[tuple[int, int]]:
+    """(first, end) rows of consecutive runs of spans, each about BLOCK_RESIDUES bytes long."""
+    n = lo.size
+    marks = lo[0] + np.arange(BLOCK_RESIDUES, int(hi[-1] - lo[0]), BLOCK_RESIDUES)
+    cuts = np.unique(np.searchsorted(lo, marks))
+    bounds = [0, *cuts[(cuts > 0) & (cuts < n)].tolist(), n]
+    runs: list[tuple[int, int]] = []
+    for a, b in zip(bounds[:-1], bounds[1:]):
+        runs.extend((c, min(c + _RUN_ROWS, b)) for c in range(a, b, _RUN_ROWS))
+    return runs
+
+
+def compose_spans(
+    data: bytes,
+    starts: npt.ArrayLike,
+    ends: npt.ArrayLike,
+    scale: Scale,
+    records: Sequence[str] | None = None,
+) -> Composition:
+    """:func:`compose` of the sequences ``data[starts[i]:ends[i]]``, without building them.
+
+    Equal to ``compose([data[a:b].decode("utf-8", "replace") for a, b in zip(starts, ends)],
+    scale, records)`` (tested), so a FASTA block is composed where it lies: the spans are the
+    sequence lines of each record (whitespace inside is ignored, as in :func:`compose`), and
+    the bytes between spans (header lines) are not looked at. Spans are in order and do not
+    overlap. Only rows with an error build their sequence text.
+    """
+    layout = layout_for(scale)
+    k = layout.sites.n_types
+    lo = np.asarray(starts, dtype=np.int64).reshape(-1)
+    hi = np.asarray(ends, dtype=np.int64).reshape(-1)
+    n = lo.size
+    if hi.size != n:
+        raise ValueError(f"{n} span starts but {hi.size} span ends")
+    if n == 0:
+        z = np.zeros((0,), dtype=np.int64)
+        return Composition(layout, np.zeros((0, k)), z, (), z, np.zeros((0, 32), dtype=np.int64))
+    if np.any(hi < lo) or np.any(lo[1:] < hi[:-1]) or lo[0] < 0 or hi[-1] > len(data):
+        raise ValueError("spans must lie inside the data, in order, without overlapping")
+
+    def text(r: int) -> str:
+        return data[int(lo[r]) : int(hi[r])].decode("utf-8", errors="replace")
+
+    if b"\x00" in data and _in_spans(np.flatnonzero(np.frombuffer(data, np.uint8) == 0), lo, hi):
+        # compose treats a NUL specially (it names the original characters in every error of
+        # the run of rows around it); go through it.
+        return compose([text(r) for r in range(n)], scale, records)
+    # One C pass maps every byte to its code (letters 1-26 in either case, '*' 27, whitespace 0,
+    # anything else 31) in place, so span positions stay valid.
+    code = np.frombuffer(data.translate(_SPAN_TABLE), dtype=np.uint8)
+    letters = np.zeros((n, 32), dtype=np.int64)
+    # Letter counts: one bincount over (slot << 5 | code) for each run of rows covering about
+    # BLOCK_RESIDUES bytes (and at most 2047 rows, so that keys fit in 16 bits); a span's bytes
+    # get its row's slot, the gaps between spans a spare slot that is dropped.
+    for a, b in _runs(lo, hi):
+        m = b - a
+        pieces = np.empty(2 * m - 1, dtype=np.intp)
+        pieces[0::2] = hi[a:b] - lo[a:b]
+        pieces[1::2] = lo[a + 1 : b] - hi[a : b - 1]
+        slots = np.full(2 * m - 1, m << 5, dtype=np.uint16)
+        slots[0::2] = np.arange(m, dtype=np.uint16) << 5
+        key = np.repeat(slots, pieces)
+        key |= code[lo[a] : hi[b - 1]]
+        letters[a:b] = np.bincount(key, minlength=(m + 1) * 32)[: m * 32].reshape(m, 32)
+    letters[:, 0] = 0
+    # First and last non-blank byte of every span (usually its first byte and the byte before
+    # the final line break).
+    first = _skip_blank(code, lo, hi, 1)
+    last = _skip_blank(code, hi - 1, lo - 1, -1)
+    lengths = letters[:, 1:].sum(axis=1)
+    rec = (lambda r: records[r]) if records else (lambda r: "")
+    errors: dict[int, SequenceError] = {}  # by row; rows with an error are rare
+    # A final '*' (stop) is dropped; anywhere else it is an error (found below).
+    if letters[:, _STAR].any():
+        star_end = (lengths > 0) & (code[np.maximum(last, 0)] == _STAR)
+        letters[:, _STAR] -= star_end
+        lengths -= star_end
+        moved = np.flatnonzero(star_end & (lengths > 0))  # the residue before it is the last
+        last[moved] = _skip_blank(code, last[moved] - 1, lo[moved] - 1, -1)
+    # Rows with an invalid byte or an inner '*': the exact message comes from the one-sequence
+    # reader, as in compose.
+    for r in np.flatnonzero((letters[:, _BAD] > 0) | (letters[:, _STAR] > 0)).tolist():
+        try:
+            clean_sequence(text(r))
+        except SequenceError as exc:
+            errors[r] = SequenceError(exc.reason, exc.position, exc.character, rec(r))
+    letters[:, _STAR] = 0
+    letters[:, _BAD] = 0
+    for r in np.flatnonzero(lengths == 0).tolist():
+        errors[r] = SequenceError("empty sequence", 0, "", rec(r))
+    if not layout.has_u:
+        for r in np.flatnonzero(letters[:, ord("U") - 64]).tolist():
+            if r not in errors:
+                cleaned = text(r).translate({ord(c): None for c in " \t\r\n\v\f"}).upper()
+                errors[r] = SequenceError(
+                    f"scale {scale.key!r} gives no selenocysteine (U) pKa; choose a scale "
+                    "with U or pass a scale file with a U row",
+                    cleaned.find("U") + 1,
+                    "U",
+                    rec(r),
+                )
+    counts = letters @ layout.letter_weights[64:96]
+    rows_ne = np.flatnonzero(lengths > 0)
+    first_code = code[first[rows_ne]].astype(np.intp) + 64  # back to upper-case byte values
+    last_code = code[last[rows_ne]].astype(np.intp) + 64
+    counts[rows_ne, layout.nterm_col[first_code]] += 1.0
+    counts[rows_ne, layout.cterm_col[last_code]] += 1.0
+    for side_map, byte in ((layout.side_cterm_col, last_code), (layout.side_nterm_col, first_code)):
+        col = side_map[byte]
+        hit = col >= 0
+        if side_map is layout.side_nterm_col:
+            # a one-residue chain keeps its C-terminal context only
+            hit &= ~((lengths[rows_ne] == 1) & (layout.side_cterm_col[byte] >= 0))
+        sel = rows_ne[hit]
+        counts[sel, layout.side_col[byte[hit]]] -= 1.0
+        counts[sel, col[hit]] += 1.0
+    failed = np.zeros(n, dtype=bool)
+    failed[list(errors)] = True
+    counts[failed] = 0.0
+    unknown = letters[:, ord("X") - 64].astype(np.int64)
+    if not data.isascii():
+        # A byte outside ASCII counts once here but as U+FFFD (three bytes) in compose; such
+        # rows (they always have an error) are composed from their text.
+        wide = np.flatnonzero(np.frombuffer(data, dtype=np.uint8) >= 0x80)
+        hit_rows = _in_spans(wide, lo, hi)
+        if hit_rows:
+            one = _compose_block([text(r) for r in hit_rows], scale, [rec(r) for r in hit_rows])
+            counts[hit_rows], lengths[hit_rows] = one.counts, one.lengths
+            unknown[hit_rows], letters[hit_rows] = one.unknown, one.letters
+            for j, r in enumerate(hit_rows):
+                e = one.errors[j]
+                if e is None:
+                    errors.pop(r, None)
+                else:
+                    errors[r] = e
+    by_row: list[SequenceError | None] = [None] * n
+    for r, e in errors.items():
+        by_row[r] = e
+    return Composition(layout, counts, lengths, tuple(by_row), unknown, letters)
+
+
 def clean_sequence(text: str) -> str:
     """Upper-case residues with whitespace and a final ``*`` removed; raises on bad letters.
 
@@ -376,9 +577,11 @@ def check_cys(cys: str, where: str) -> str:
 
 
 def bond_all_cysteines(sites: SiteSet) -> tuple[SiteSet, tuple[str, ...]]:
-    """Remove every Cys thiol (all cysteines taken as disulfide-bonded); returns the bonded names."""
+    """Remove every Cys thiol (all cysteines taken as disulfide-bonded); return the bonded names."""
     keep = [k for k in range(sites.n_types) if sites.groups[k] != "C"]
-    bonded = tuple(m for k in range(sites.n_types) if sites.groups[k] == "C" for m in sites.members[k])
+    bonded = tuple(
+        m for k in range(sites.n_types) if sites.groups[k] == "C" for m in sites.members[k]
+    )
     return sites.take(keep), bonded
 
 

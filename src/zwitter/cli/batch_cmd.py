@@ -33,7 +33,8 @@ def batch(
     inputs: Annotated[
         list[str],
         typer.Argument(
-            help="FASTA files (plain or gzip); '-' reads standard input.",
+            help="FASTA files, or SMILES files (.smi, .csv/.tsv with a SMILES column, .sdf), "
+            "plain or gzip; '-' reads FASTA from standard input.",
             show_default=False,
             metavar="INPUT...",
         ),
@@ -93,8 +94,18 @@ def batch(
     ] = None,
     input_format: Annotated[
         str,
-        typer.Option("--input-format", help="auto (by file name, then content) or fasta."),
+        typer.Option("--input-format", help="auto (by file name, then content), fasta or smiles."),
     ] = "auto",
+    smiles_column: Annotated[
+        str | None,
+        typer.Option(
+            "--smiles-column", help="SMILES column of a .csv/.tsv input (default: 'smiles')."
+        ),
+    ] = None,
+    id_column: Annotated[
+        str | None,
+        typer.Option("--id-column", help="Id column of a .csv/.tsv input (default: row number)."),
+    ] = None,
     temp: TempOpt = None,
     ionic_strength: IonicOpt = None,
     plot: Annotated[
@@ -117,7 +128,7 @@ def batch(
         ),
     ] = None,
 ) -> None:
-    """Score every record of FASTA files: masses, pI, charge at each --ph, ionizable residues.
+    """Score every record of FASTA or SMILES files: masses, pI, charge at each --ph, sites.
 
     Every record appears once, in input order, bad ones with an error column. The output is
     written to a temporary file and renamed at the end; a summary goes to stderr.
@@ -170,6 +181,10 @@ def batch(
                 param_hint="--fractions",
             ) from None
     conditions = conditions_from(temp, ionic_strength)
+    if smiles_column is not None or id_column is not None:
+        from ..batch_smiles import smiles_format
+
+        zb.register_input_format(smiles_format(smiles_column, id_column))
     try:
         options = zb.make_options(ph, scale, cys.value, conditions, where="batch")
     except ParameterError as exc:
