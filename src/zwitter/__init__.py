@@ -13,18 +13,9 @@ pKa values and the isoelectric point, at the temperature and ionic strength of a
 
 from __future__ import annotations
 
-from .batch import BatchSummary, iter_score_fasta, score_fasta, score_files, score_list
-from .buffers import (
-    Recipe,
-    buffer_pkas,
-    buffer_recipe,
-    buffer_table,
-    get_buffer,
-    mixture_ph,
-    suitable_buffers,
-)
-from .conditions import Conditions
-from .distributed import score_dask_bag, score_dask_dataframe
+import importlib
+from typing import Any
+
 from .equilibrium import DominantForm
 from .errors import (
     BufferLookupError,
@@ -40,50 +31,53 @@ from .errors import (
     ZwitterWarning,
 )
 from .inputs import detect_kind, molecule_from_text
-from .modifications import list_modifications
 from .molecule import Molecule
-from .proforma import from_proforma, parse_proforma, to_proforma
-from .purification import Plan, elution_order, plan_ion_exchange, separation_ph
 from .scales import DEFAULT_SCALE, Scale, get_scale, list_scales, load_scale_file, scale_names
 from .sequence import from_sequence
 from .sites import Site, SiteSet, permanent_charge
-from .structure import SmilesRecord, StructureForm, StructureMolecule, from_smiles, iter_smiles_file
+
+#: Public names loaded on first use, by the module that defines them: the command line's
+#: `zwitter pi` should not pay for buffers, structures, batch engines it does not touch.
+_LAZY = {
+    "BatchSummary": "batch", "iter_score_fasta": "batch", "score_fasta": "batch",
+    "score_files": "batch", "score_list": "batch",
+    "score_dask_bag": "distributed", "score_dask_dataframe": "distributed",
+    "Recipe": "buffers", "buffer_pkas": "buffers", "buffer_recipe": "buffers",
+    "buffer_table": "buffers", "get_buffer": "buffers", "mixture_ph": "buffers",
+    "suitable_buffers": "buffers",
+    "Conditions": "conditions",
+    "list_modifications": "modifications",
+    "from_proforma": "proforma", "parse_proforma": "proforma", "to_proforma": "proforma",
+    "Plan": "purification", "elution_order": "purification", "plan_ion_exchange": "purification",
+    "separation_ph": "purification",
+    "SmilesRecord": "structure", "StructureForm": "structure", "StructureMolecule": "structure",
+    "from_smiles": "structure", "iter_smiles_file": "structure",
+}  # fmt: skip
 
 
-def __getattr__(name: str) -> str:
-    # __version__ is read from the installed metadata on first use: importlib.metadata costs
-    # ~20 ms of start-up that `zwitter pi` does not need.
+def __getattr__(name: str) -> Any:
+    if name in _LAZY:
+        value = getattr(importlib.import_module(f".{_LAZY[name]}", __name__), name)
+        globals()[name] = value
+        return value
     if name == "__version__":
+        # read from the installed metadata on first use (importlib.metadata costs ~20 ms)
         from importlib.metadata import PackageNotFoundError, version
 
         try:
             return version("zwitter")
         except PackageNotFoundError:  # pragma: no cover - running from a source tree
             return "0.0.0"
+    if not name.startswith("_"):
+        try:  # submodules such as zwitter.plots, zwitter.report, zwitter.fasta
+            return importlib.import_module(f".{name}", __name__)
+        except ModuleNotFoundError:
+            pass
     raise AttributeError(f"module 'zwitter' has no attribute {name!r}")
 
 
 __all__ = [
     "__version__",
-    "BatchSummary",
-    "iter_score_fasta",
-    "score_dask_bag",
-    "score_dask_dataframe",
-    "score_fasta",
-    "score_files",
-    "score_list",
-    "Conditions",
-    "Plan",
-    "Recipe",
-    "buffer_pkas",
-    "buffer_recipe",
-    "buffer_table",
-    "elution_order",
-    "get_buffer",
-    "mixture_ph",
-    "plan_ion_exchange",
-    "separation_ph",
-    "suitable_buffers",
     "DEFAULT_SCALE",
     "DominantForm",
     "Molecule",
@@ -91,20 +85,11 @@ __all__ = [
     "Site",
     "SiteSet",
     "detect_kind",
-    "from_proforma",
     "from_sequence",
-    "from_smiles",
-    "iter_smiles_file",
-    "SmilesRecord",
-    "StructureForm",
-    "StructureMolecule",
-    "list_modifications",
-    "molecule_from_text",
-    "parse_proforma",
-    "to_proforma",
     "get_scale",
     "list_scales",
     "load_scale_file",
+    "molecule_from_text",
     "permanent_charge",
     "scale_names",
     "BufferLookupError",
@@ -118,4 +103,5 @@ __all__ = [
     "StructureError",
     "ZwitterError",
     "ZwitterWarning",
+    *_LAZY,
 ]
