@@ -220,6 +220,33 @@ def compose(
     return _compose_block(sequences, scale, records)
 
 
+def _site_counts(
+    layout: SiteLayout,
+    letters: npt.NDArray[np.int64],
+    lengths: npt.NDArray[np.int64],
+    rows_ne: npt.NDArray[np.intp],
+    first: npt.NDArray[np.uint8],
+    last: npt.NDArray[np.uint8],
+) -> npt.NDArray[np.float64]:
+    """(N, K) site counts: side chains from the letter counts, then each non-empty row's termini
+    (``first``/``last``: compact codes of its first and last residue) and terminal contexts."""
+    counts = letters @ layout.letter_weights[64:96]
+    first_code = first.astype(np.intp) + 64  # back to upper-case byte values
+    last_code = last.astype(np.intp) + 64
+    counts[rows_ne, layout.nterm_col[first_code]] += 1.0
+    counts[rows_ne, layout.cterm_col[last_code]] += 1.0
+    for side_map, byte in ((layout.side_cterm_col, last_code), (layout.side_nterm_col, first_code)):
+        col = side_map[byte]
+        hit = col >= 0
+        if side_map is layout.side_nterm_col:
+            # a one-residue chain keeps its C-terminal context only
+            hit &= ~((lengths[rows_ne] == 1) & (layout.side_cterm_col[byte] >= 0))
+        sel = rows_ne[hit]
+        counts[sel, layout.side_col[byte[hit]]] -= 1.0
+        counts[sel, col[hit]] += 1.0
+    return counts
+
+
 def _compose_block(
     sequences: Sequence[str], scale: Scale, records: Sequence[str] | None = None
 ) -> Composition:
@@ -291,21 +318,10 @@ def _compose_block(
                     "U",
                     rec(r),
                 )
-    counts = letters @ layout.letter_weights[64:96]
     rows_ne = np.flatnonzero(lengths > 0)
-    first_code = code[starts[rows_ne]].astype(np.intp) + 64  # back to upper-case byte values
-    last_code = code[ends[rows_ne] - 1].astype(np.intp) + 64
-    counts[rows_ne, layout.nterm_col[first_code]] += 1.0
-    counts[rows_ne, layout.cterm_col[last_code]] += 1.0
-    for side_map, byte in ((layout.side_cterm_col, last_code), (layout.side_nterm_col, first_code)):
-        col = side_map[byte]
-        hit = col >= 0
-        if side_map is layout.side_nterm_col:
-            # a one-residue chain keeps its C-terminal context only
-            hit &= ~((lengths[rows_ne] == 1) & (layout.side_cterm_col[byte] >= 0))
-        r = rows_ne[hit]
-        counts[r, layout.side_col[byte[hit]]] -= 1.0
-        counts[r, col[hit]] += 1.0
+    counts = _site_counts(
+        layout, letters, lengths, rows_ne, code[starts[rows_ne]], code[ends[rows_ne] - 1]
+    )
     failed = np.array([e is not None for e in errors])
     counts[failed] = 0.0
     unknown = letters[:, ord("X") - 64].astype(np.int64)
@@ -468,21 +484,10 @@ def compose_spans(
                     "U",
                     rec(r),
                 )
-    counts = letters @ layout.letter_weights[64:96]
     rows_ne = np.flatnonzero(lengths > 0)
-    first_code = code[first[rows_ne]].astype(np.intp) + 64  # back to upper-case byte values
-    last_code = code[last[rows_ne]].astype(np.intp) + 64
-    counts[rows_ne, layout.nterm_col[first_code]] += 1.0
-    counts[rows_ne, layout.cterm_col[last_code]] += 1.0
-    for side_map, byte in ((layout.side_cterm_col, last_code), (layout.side_nterm_col, first_code)):
-        col = side_map[byte]
-        hit = col >= 0
-        if side_map is layout.side_nterm_col:
-            # a one-residue chain keeps its C-terminal context only
-            hit &= ~((lengths[rows_ne] == 1) & (layout.side_cterm_col[byte] >= 0))
-        sel = rows_ne[hit]
-        counts[sel, layout.side_col[byte[hit]]] -= 1.0
-        counts[sel, col[hit]] += 1.0
+    counts = _site_counts(
+        layout, letters, lengths, rows_ne, code[first[rows_ne]], code[last[rows_ne]]
+    )
     failed = np.zeros(n, dtype=bool)
     failed[list(errors)] = True
     counts[failed] = 0.0
