@@ -148,6 +148,7 @@ def test_conditions_options_match_the_library() -> None:
         ["charge", "MKWVDEK", "--ph", "7"],
         ["forms", "DKHKE"],
         ["plan", "MKWVDEKKKRRHKK", "-c", "DDEEDDKE"],
+        ["species", "NCC(=O)O"],
     ],
 )
 def test_plot_option_writes_the_figure(tmp_path, args: list[str]) -> None:

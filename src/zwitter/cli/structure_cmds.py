@@ -15,7 +15,7 @@ import typer
 
 from ..errors import ZwitterError
 from ._app import app, fail
-from ._common import IonicOpt, TempOpt, conditions_from
+from ._common import IonicOpt, PlotOpt, TempOpt, conditions_from, save_plot
 from ._output import CAUTION, OutputFormat, emit, rounded
 
 SmilesArg = Annotated[str, typer.Argument(help="One SMILES (quote it in the shell).")]
@@ -122,6 +122,7 @@ def species(
     temp: TempOpt = None,
     ionic_strength: IonicOpt = None,
     fmt: FormatOpt = OutputFormat.table,
+    plot: PlotOpt = None,
 ) -> None:
     """The dominant form of a structure at a pH and its most populated microstates, drawn as
     SMILES with formal charges."""
@@ -131,6 +132,10 @@ def species(
         table = mol.species(ph, top=top)
     except ZwitterError as exc:
         fail(str(exc))
+    if plot is not None:
+        from ..plots import species_plot
+
+        save_plot(lambda: species_plot(mol, path=plot), plot)
     rows = [
         {
             "rank": i + 1,
