@@ -449,3 +449,24 @@ def test_cli_bad_input(args: list[str], message: str) -> None:
     assert res.exit_code == 2
     assert message in res.output
     assert "Traceback" not in res.output
+
+
+@pytest.mark.parametrize(
+    ("temperature", "ph"),
+    # Tris/Tris-HCl standard buffer, 0.01667 mol/kg Tris + 0.05 mol/kg Tris-HCl: pH 7.699 at
+    # 25 C and 7.382 at 37 C (Durst & Staples 1972, Clin. Chem. 18:206; from memory). Dilute
+    # enough that mol/kg and mol/L differ by well under 0.01 pH.
+    [(25.0, 7.699), (37.0, 7.382)],
+)
+def test_tris_hcl_standard_buffer(temperature: float, ph: float) -> None:
+    got = mixture_ph(
+        "Tris", {"Tris": 0.01667, "Tris-HCl": 0.05}, conditions=Conditions(temperature=temperature)
+    )
+    assert got == pytest.approx(ph, abs=0.05)
+    # and the recipe for that pH asks for the standard's 1:3 ratio of the two forms
+    rec = buffer_recipe(
+        "Tris", ph=ph, concentration=0.06667, volume=1.0, method="mix",
+        conditions=Conditions(temperature=temperature),
+    )  # fmt: skip
+    moles = {c.item: c.moles for c in rec.components if c.action == "weigh"}
+    assert moles["Tris-HCl"] / moles["Tris"] == pytest.approx(3.0, rel=0.12)
