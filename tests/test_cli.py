@@ -98,6 +98,7 @@ def test_pi_accepts_proforma_with_the_library_numbers() -> None:
     ("args", "needle"),
     [
         (["pi", "MK1"], "invalid residue: '1' at position 3"),
+        (["forms", "C1CC"], "cannot read SMILES"),
         (["pi", ""], "empty sequence"),
         (["charge", "MKW", "--ph", "17"], "'ph' parameter"),
         (["charge", "MKW", "--ph", "nan"], "'ph' parameter"),

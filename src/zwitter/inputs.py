@@ -100,5 +100,7 @@ def _mostly_residues(text: str) -> bool:
     chars = [c for c in text if not c.isspace()]
     if not chars or any(c in "()[]=#@+\\/.%" for c in chars):
         return False
+    if all(c in "BCNOPSFI" for c in chars if c.isalpha()):
+        return False  # only SMILES organic-subset atoms ("C1CC"): a SMILES, not a sequence
     residues = sum(c in "ACDEFGHIKLMNPQRSTVWYUOBZJX" for c in chars)
     return residues >= 2 and residues >= 0.6 * len(chars)
