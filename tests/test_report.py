@@ -422,3 +422,16 @@ def test_command_needs_an_html_name(tmp_path: Path, monkeypatch: pytest.MonkeyPa
     assert res.exit_code == 2
     assert "'r.txt' must end in .html" in res.output
     assert list(tmp_path.iterdir()) == []
+
+
+def test_report_of_a_long_sequence_argument(tmp_path: Path) -> None:
+    # a protein pasted as INPUT is far longer than a file name may be: it is molecule text
+    from typer.testing import CliRunner
+
+    from zwitter.cli import app
+
+    seq = "MKWVTFISLLFLFSSAYSRGVFRRDAHKSEVAHRFKDLGEENFKALVLIAFAQYLQQCPFEDHVKLVNEVTEFAK" * 5
+    out = tmp_path / "long.html"
+    res = CliRunner().invoke(app, ["report", seq, "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    assert out.stat().st_size > 10_000

@@ -290,7 +290,11 @@ def get_scale(scale: str | Path | Scale | None = None) -> Scale:
     key = scale.strip().lower().replace("-", "_").replace(" ", "_")
     if key in packaged:
         return packaged[key]
-    if scale.lower().endswith((".csv", ".toml")) or Path(scale).is_file():
+    try:
+        is_file = Path(scale).is_file()
+    except OSError:  # not a usable path at all (too long, ...): not a file
+        is_file = False
+    if scale.lower().endswith((".csv", ".toml")) or is_file:
         return load_scale_file(scale)
     close = difflib.get_close_matches(key, list(packaged), n=3, cutoff=0.5)
     hint = f" Did you mean {', '.join(close)}?" if close else ""

@@ -144,8 +144,13 @@ def batch(
     engine_name = "dask" if scheduler is not None else (engine or EngineName.local).value
     seen: set[str] = set()
     for path in inputs:
-        if path != "-" and not Path(path).is_file():
-            what = "is a directory" if Path(path).is_dir() else "does not exist"
+        try:
+            usable = path == "-" or Path(path).is_file()
+            folder = not usable and Path(path).is_dir()
+        except OSError:  # e.g. a name too long for the file system
+            usable = folder = False
+        if not usable:
+            what = "is a directory" if folder else "does not exist"
             raise typer.BadParameter(f"{path!r} {what}", param_hint="INPUTS")
         if path in seen:
             raise typer.BadParameter(f"{path!r} is given twice", param_hint="INPUTS")

@@ -31,8 +31,11 @@ def _batch_path(text: str) -> Path | None:
     is an error (not a molecule with a strange name); anything else is molecule text.
     """
     path = Path(text)
-    if path.is_file():
-        return path
+    try:
+        if path.is_file():
+            return path
+    except OSError:  # a long sequence is not a usable file name ("File name too long")
+        return None
     base = text[:-3] if text.lower().endswith(".gz") else text
     if base.lower().endswith(BATCH_SUFFIXES):
         fail(f"input file {text!r} not found")
