@@ -9,7 +9,8 @@ to one). Then measures, in one run:
    records, CSV output: wall time, records/s, peak memory;
 2. a Biopython per-sequence loop over the same file (Bio.SeqIO parsing, then Bio.SeqUtils
    ``IsoelectricPoint(seq).pi()``, ``.charge_at_pH(7.0)`` and ``molecular_weight`` for each
-   record), on the first ``--bio-sample`` records, extrapolated to the whole file (stated in the output);
+   record), on the first ``--bio-sample`` records, extrapolated to the whole file (stated in
+   the output);
 3. peak memory of ``zwitter batch --jobs 1`` on 200,000 versus 1,000,000 records.
 
 Each zwitter measurement is repeated (``--repeat``, default 3) and the fastest run is reported,

@@ -1,8 +1,8 @@
 """Cross-checks against general-purpose reference libraries: Biopython and pyteomics.
 
 Biopython's isoelectric point (Bio.SeqUtils.IsoelectricPoint) uses the Bjellqvist pK set with
-terminus-specific values; tests/data/biopython_scale.csv holds the same numbers in zwitter's scale-file schema, so with
-that file both programs solve the same model and must agree. Biopython searches only between
+terminus-specific values; tests/data/biopython_scale.csv holds the same numbers in zwitter's
+scale-file schema, so with that file both programs solve the same model and must agree. Biopython searches only between
 pH 4.05 and 12 and stops at a bracket of 1e-4, so sequences whose pI lies outside are skipped.
 """
 
