@@ -2,8 +2,9 @@
 
 Biopython's isoelectric point (Bio.SeqUtils.IsoelectricPoint) uses the Bjellqvist pK set with
 terminus-specific values; tests/data/biopython_scale.csv holds the same numbers in zwitter's
-scale-file schema, so with that file both programs solve the same model and must agree. Biopython searches only between
-pH 4.05 and 12 and stops at a bracket of 1e-4, so sequences whose pI lies outside are skipped.
+scale-file schema, so with that file both programs solve the same model and must agree.
+Biopython searches only between pH 4.05 and 12 and stops at a bracket of 1e-4, so sequences whose
+pI lies outside are skipped.
 """
 
 from __future__ import annotations
