@@ -19,7 +19,7 @@ and none over sequences.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -247,6 +247,48 @@ def _site_counts(
     return counts
 
 
+def _row_errors(
+    letters: npt.NDArray[np.int64],
+    lengths: npt.NDArray[np.int64],
+    text: Callable[[int], str],
+    rec: Callable[[int], str],
+    scale: Scale,
+    layout: SiteLayout,
+) -> dict[int, SequenceError]:
+    """Errors by row (rows with one are rare): invalid bytes and inner '*' (the exact message,
+    character and 1-based position among residues, from the one-sequence reader), empty rows,
+    and U where the scale has no selenol pKa. Clears the '*' and invalid-byte columns."""
+    errors: dict[int, SequenceError] = {}
+    for r in np.flatnonzero((letters[:, _BAD] > 0) | (letters[:, _STAR] > 0)).tolist():
+        try:
+            clean_sequence(text(r))
+        except SequenceError as exc:
+            errors[r] = SequenceError(exc.reason, exc.position, exc.character, rec(r))
+    letters[:, _STAR] = 0
+    letters[:, _BAD] = 0
+    for r in np.flatnonzero(lengths == 0).tolist():
+        errors[r] = SequenceError("empty sequence", 0, "", rec(r))
+    if not layout.has_u:
+        for r in np.flatnonzero(letters[:, ord("U") - 64]).tolist():
+            if r not in errors:
+                cleaned = text(r).translate({ord(c): None for c in " \t\r\n\v\f"}).upper()
+                errors[r] = SequenceError(
+                    f"scale {scale.key!r} gives no selenocysteine (U) pKa; choose a scale "
+                    "with U or pass a scale file with a U row",
+                    cleaned.find("U") + 1,
+                    "U",
+                    rec(r),
+                )
+    return errors
+
+
+def _by_row(errors: dict[int, SequenceError], n: int) -> tuple[SequenceError | None, ...]:
+    out: list[SequenceError | None] = [None] * n
+    for r, e in errors.items():
+        out[r] = e
+    return tuple(out)
+
+
 def _compose_block(
     sequences: Sequence[str], scale: Scale, records: Sequence[str] | None = None
 ) -> Composition:
@@ -287,7 +329,6 @@ def _compose_block(
     letters = np.bincount(key, minlength=n * 32).reshape(n, 32)
     letters[:, 0] = 0
     rec = (lambda r: records[r]) if records else (lambda r: "")
-    errors: list[SequenceError | None] = [None] * n
     # A final '*' (stop) is dropped; anywhere else it is an error (found below).
     star_end = np.zeros(n, dtype=bool)
     if letters[:, _STAR].any():
@@ -296,36 +337,16 @@ def _compose_block(
         letters[:, _STAR] -= star_end
         ends = ends - star_end
     lengths = (ends - starts).astype(np.int64)
-    # Rows with an invalid byte or an inner '*': the exact message (character, 1-based position
-    # among residues) comes from the one-sequence reader; such rows are rare.
-    for r in np.flatnonzero((letters[:, _BAD] > 0) | (letters[:, _STAR] > 0)).tolist():
-        try:
-            clean_sequence(sequences[r])
-        except SequenceError as exc:
-            errors[r] = SequenceError(exc.reason, exc.position, exc.character, rec(r))
-    letters[:, _STAR] = 0
-    letters[:, _BAD] = 0
-    for r in np.flatnonzero(lengths == 0).tolist():
-        errors[r] = SequenceError("empty sequence", 0, "", rec(r))
-    if not layout.has_u:
-        for r in np.flatnonzero(letters[:, ord("U") - 64]).tolist():
-            if errors[r] is None:
-                cleaned = sequences[r].translate({ord(c): None for c in " \t\r\n\v\f"}).upper()
-                errors[r] = SequenceError(
-                    f"scale {scale.key!r} gives no selenocysteine (U) pKa; choose a scale "
-                    "with U or pass a scale file with a U row",
-                    cleaned.find("U") + 1,
-                    "U",
-                    rec(r),
-                )
+    errors = _row_errors(letters, lengths, lambda r: sequences[r], rec, scale, layout)
     rows_ne = np.flatnonzero(lengths > 0)
     counts = _site_counts(
         layout, letters, lengths, rows_ne, code[starts[rows_ne]], code[ends[rows_ne] - 1]
     )
-    failed = np.array([e is not None for e in errors])
+    failed = np.zeros(n, dtype=bool)
+    failed[list(errors)] = True
     counts[failed] = 0.0
     unknown = letters[:, ord("X") - 64].astype(np.int64)
-    return Composition(layout, counts, lengths, tuple(errors), unknown, letters)
+    return Composition(layout, counts, lengths, _by_row(errors, n), unknown, letters)
 
 
 # Codes for compose_spans: as _COMPACT, but whitespace is 0 (an ignored column; the bytes stay in
@@ -454,7 +475,6 @@ def compose_spans(
     last = _skip_blank(code, hi - 1, lo - 1, -1)
     lengths = letters[:, 1:].sum(axis=1)
     rec = (lambda r: records[r]) if records else (lambda r: "")
-    errors: dict[int, SequenceError] = {}  # by row; rows with an error are rare
     # A final '*' (stop) is dropped; anywhere else it is an error (found below).
     if letters[:, _STAR].any():
         star_end = (lengths > 0) & (code[np.maximum(last, 0)] == _STAR)
@@ -462,28 +482,7 @@ def compose_spans(
         lengths -= star_end
         moved = np.flatnonzero(star_end & (lengths > 0))  # the residue before it is the last
         last[moved] = _skip_blank(code, last[moved] - 1, lo[moved] - 1, -1)
-    # Rows with an invalid byte or an inner '*': the exact message comes from the one-sequence
-    # reader, as in compose.
-    for r in np.flatnonzero((letters[:, _BAD] > 0) | (letters[:, _STAR] > 0)).tolist():
-        try:
-            clean_sequence(text(r))
-        except SequenceError as exc:
-            errors[r] = SequenceError(exc.reason, exc.position, exc.character, rec(r))
-    letters[:, _STAR] = 0
-    letters[:, _BAD] = 0
-    for r in np.flatnonzero(lengths == 0).tolist():
-        errors[r] = SequenceError("empty sequence", 0, "", rec(r))
-    if not layout.has_u:
-        for r in np.flatnonzero(letters[:, ord("U") - 64]).tolist():
-            if r not in errors:
-                cleaned = text(r).translate({ord(c): None for c in " \t\r\n\v\f"}).upper()
-                errors[r] = SequenceError(
-                    f"scale {scale.key!r} gives no selenocysteine (U) pKa; choose a scale "
-                    "with U or pass a scale file with a U row",
-                    cleaned.find("U") + 1,
-                    "U",
-                    rec(r),
-                )
+    errors = _row_errors(letters, lengths, text, rec, scale, layout)
     rows_ne = np.flatnonzero(lengths > 0)
     counts = _site_counts(
         layout, letters, lengths, rows_ne, code[first[rows_ne]], code[last[rows_ne]]
@@ -507,10 +506,7 @@ def compose_spans(
                     errors.pop(r, None)
                 else:
                     errors[r] = e
-    by_row: list[SequenceError | None] = [None] * n
-    for r, e in errors.items():
-        by_row[r] = e
-    return Composition(layout, counts, lengths, tuple(by_row), unknown, letters)
+    return Composition(layout, counts, lengths, _by_row(errors, n), unknown, letters)
 
 
 def clean_sequence(text: str) -> str:
