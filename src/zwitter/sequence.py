@@ -50,8 +50,6 @@ _VALID_SET = frozenset(VALID)
 _WHITESPACE = b" \t\r\n\v\f"
 _SEP = 0  # byte joining the sequences of a chunk (NUL never occurs in a valid sequence)
 
-_UPPER = np.arange(256, dtype=np.uint8)
-_UPPER[ord("a") : ord("z") + 1] -= 32
 # Compact residue codes: 0 separator, 1-26 the letters A-Z (either case; code = upper byte - 64),
 # 27 '*', 31 any other byte (an error wherever it occurs).
 _STAR = 27

@@ -253,10 +253,6 @@ class SiteSet:
             raise ValueError("only one-molecule SiteSets can be added")
         return SiteSet.from_sites(self.sites() + other.sites(), self.notes + other.notes)
 
-    def scaled(self, factor: float) -> SiteSet:
-        """Every count multiplied by ``factor`` (stoichiometry of a complex)."""
-        return self.with_counts(self.counts * factor)
-
     # -- simple summaries ---------------------------------------------------------------------
     def charge_bounds(self) -> tuple[FloatArray, FloatArray]:
         """(lowest, highest) net charge the molecule(s) can carry."""

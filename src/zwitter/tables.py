@@ -12,10 +12,8 @@ import functools
 import io
 import re
 import sys
-from collections.abc import Iterator
 from dataclasses import dataclass
 from importlib import resources
-from pathlib import Path
 from typing import Any
 
 from .errors import ScaleError
@@ -145,11 +143,3 @@ def packaged_csv(name: str, required: tuple[str, ...] = ()) -> tuple[Row, ...]:
 def packaged_toml(name: str) -> dict[str, Any]:
     """A packaged TOML file as a dict (cached)."""
     return read_toml_text(packaged_text(name), f"zwitter/data/{name}")
-
-
-def iter_data_files() -> Iterator[Path]:
-    """Paths of every packaged data file (for checks and documentation)."""
-    root = resources.files("zwitter").joinpath("data")
-    for entry in root.iterdir():
-        if entry.is_file():
-            yield Path(str(entry))

@@ -20,11 +20,11 @@ from .sequence import sites_for_sequence
 from .sites import SiteSet
 from .tables import Row, read_csv_text
 
-__all__ = ["ScaleError_", "load_measured_pi", "plain_complex_sites", "scale_errors"]
+__all__ = ["ScaleAccuracy", "load_measured_pi", "plain_complex_sites", "scale_errors"]
 
 
 @dataclass(frozen=True)
-class ScaleError_:  # noqa: N801 - a result record, not an exception
+class ScaleAccuracy:
     """Prediction error of one scale on the reference table."""
 
     scale: str
@@ -53,7 +53,7 @@ def plain_complex_sites(sequence: str, scale: Scale) -> SiteSet:
 
 def scale_errors(
     scale: str | Path | Scale | None, rows: Sequence[Row], *, exclude: Sequence[str] = ()
-) -> ScaleError_:
+) -> ScaleAccuracy:
     """RMSD / MAE of the predicted pI (plain sequences, cysteines free) against measured pI."""
     sc = get_scale(scale)
     residuals = []
@@ -69,6 +69,6 @@ def scale_errors(
     n = len(diffs)
     rmsd = math.sqrt(sum(d * d for d in diffs) / n) if n else math.nan
     mae = sum(abs(d) for d in diffs) / n if n else math.nan
-    return ScaleError_(
+    return ScaleAccuracy(
         sc.key, n, rmsd, mae, max((abs(d) for d in diffs), default=math.nan), tuple(residuals)
     )
