@@ -115,11 +115,13 @@ __all__ = [
 ]
 
 #: Records per chunk: large enough that numpy's per-call overhead vanishes, small enough that a
-#: chunk's arrays (about 3 kB per record, mostly the 256-letter count row) stay a few tens of MB.
+#: chunk's arrays (well under 1 kB per record: the 32-letter count row, site counts, outputs)
+#: stay a few MB.
 DEFAULT_CHUNK_SIZE = 10_000
 #: Residues whose counts the output reports (their side chains carry the sites of the model).
 IONIZABLE = "DECYHKRU"
-#: Shortest sequence for which "only A, C, G, T/U and N" suggests a nucleotide sequence.
+#: Shortest sequence for which "only A, C, G, T/U and N" suggests a nucleotide sequence (a
+#: rule of thumb of sequence-format sniffing; common practice).
 NUCLEOTIDE_MIN_LENGTH = 20
 #: Record errors printed on stderr by a run before it only counts them.
 MAX_REPORTED_ERRORS = 5

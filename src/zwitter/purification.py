@@ -45,6 +45,8 @@ __all__ = ["Window", "Plan", "plan_ion_exchange", "elution_order", "separation_p
 
 #: pH grid of the plan (common practice: the range ion-exchange media and proteins are used in).
 GRID = np.round(np.arange(2.0, 12.0 + 1e-9, 0.01), 2)
+#: Defaults when the user gives none (common practice): a pH window most proteins tolerate, and
+#: working at least one pH unit from the pI.
 DEFAULT_STABILITY = (4.0, 9.0)
 DEFAULT_MARGIN = 1.0
 EXCHANGERS = {"cation": "negative", "anion": "positive"}
