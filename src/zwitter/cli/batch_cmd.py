@@ -70,7 +70,13 @@ def batch(
         int, typer.Option("--chunk-size", min=1, help="Records per chunk (memory grows with it).")
     ] = _DEFAULT_CHUNK_SIZE,
     jobs: Annotated[
-        int, typer.Option("--jobs", "-j", min=0, help="Worker processes; 0 = one per CPU core.")
+        int,
+        typer.Option(
+            "--jobs",
+            "-j",
+            min=0,
+            help="Processes that score (this one and N-1 workers); 0 = one per CPU core.",
+        ),
     ] = 1,
     strict: Annotated[
         bool,
