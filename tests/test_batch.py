@@ -8,6 +8,7 @@ import io
 import json
 import math
 import warnings
+from collections.abc import Iterator
 from pathlib import Path
 
 import numpy as np
@@ -632,3 +633,132 @@ def test_csv_output_does_not_import_pandas(tmp_path: Path) -> None:
     got = pd.read_csv(out, keep_default_na=False, na_values={"pI": [""], "length": [""]})
     assert list(got["id"]) == list(expected["id"])
     assert np.allclose(got["charge_ph7.4"], expected["charge_ph7.4"], rtol=0, atol=1e-12)
+
+
+# -- plain files: blocks that say where they lie ---------------------------------------------------
+def _loaded(blocks: list[zb.Block]) -> list[tuple[bytes, int]]:
+    return [(b.loaded().data, b.first_line) for b in blocks]
+
+
+def _both_splitters(
+    path: Path, chunk_size: int, monkeypatch: pytest.MonkeyPatch, read_size: int
+) -> tuple[list[zb.Block], list[tuple[bytes, int]]]:
+    monkeypatch.setattr(zb, "_READ_SIZE", read_size)
+    plain = list(zb.split_fasta(str(path), "in", 0, chunk_size))
+    with path.open("rb") as fh:
+        stream = list(zb._split_fasta_stream(fh, None, str(path), "in", 0, chunk_size))
+    return plain, [(b.data, b.first_line) for b in stream]
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    data=st.lists(
+        st.sampled_from([b">", b">a x", b"MK", b"de", b" ", b"\n", b"\r\n", b"\r", b"\n>b\n"]),
+        max_size=30,
+    ).map(b"".join),
+    chunk_size=st.integers(1, 4),
+    read_size=st.sampled_from([1, 2, 3, 7, 64]),
+)
+def test_plain_file_splitter_cuts_the_blocks_the_stream_splitter_cuts(
+    data: bytes, chunk_size: int, read_size: int, tmp_path_factory: pytest.TempPathFactory
+) -> None:
+    # Any bytes (blank or text before the first header, headers at window edges, CR and CRLF
+    # line ends), any chunk size, windows down to one byte: the same blocks, bytes and lines.
+    path = tmp_path_factory.mktemp("split") / "in.fasta"
+    path.write_bytes(data)
+    with pytest.MonkeyPatch.context() as mp:
+        plain, stream = _both_splitters(path, chunk_size, mp, read_size)
+    assert all(b.data == b"" and b.origin is not None for b in plain)
+    assert _loaded(plain) == stream
+    assert b"".join(d for d, _ in stream).strip() == data.strip()
+
+
+def test_plain_file_blocks_of_the_mixed_file(mixed: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    plain, stream = _both_splitters(mixed, 2, monkeypatch, 5)
+    assert _loaded(plain) == stream
+    assert [line for _, line in stream] == [1, 5, 9, 13]  # the lines of MIXED's records 1, 3, 5, 7
+    assert plain[-1].origin is not None and plain[-1].origin.offset + plain[-1].origin.length == (
+        len(MIXED)
+    )
+
+
+def test_a_block_is_not_read_from_a_file_that_changed(tmp_path: Path) -> None:
+    path = tmp_path / "growing.fasta"
+    path.write_bytes(PROTEINS.read_bytes())
+    first = next(zb.split_fasta(str(path), "growing.fasta", 0, 3))
+    assert first.loaded().data.startswith(b">")
+    with path.open("ab") as fh:
+        fh.write(b">late\nMKW\n")
+    with pytest.raises(InputFileError, match=r"^growing\.fasta: the file changed while"):
+        first.loaded()
+    path.unlink()
+    with pytest.raises(InputFileError, match=r"^growing\.fasta: cannot open again: No such file"):
+        first.loaded()
+
+
+def test_detached_blocks_travel_without_their_bytes(tmp_path: Path) -> None:
+    block = next(zb.split_fasta(str(PROTEINS), "p", 0, 3))
+    assert block.detached() is block  # already without bytes
+    full = block.loaded()
+    assert full.data and full.detached().data == b"" and full.detached().loaded() == full
+    gz = tmp_path / "p.fasta.gz"
+    gz.write_bytes(gzip.compress(PROTEINS.read_bytes()))
+    packed = next(zb.split_fasta(str(gz), "p", 0, 3))
+    assert packed.origin is None and packed.detached() is packed and packed.data == full.data
+
+
+# -- worker processes ----------------------------------------------------------------------------
+def _through_engine(engine: zb.Engine, paths: list[str], chunk_size: int) -> list[bytes]:
+    formats = zb._formats(paths, "auto")
+    return [r.payload for r in zb._ordered(engine, zb._blocks(paths, formats, chunk_size))]
+
+
+@pytest.mark.parametrize("method", ["fork", "forkserver", "spawn"])
+def test_every_start_method_gives_the_in_process_bytes(
+    method: str, mixed: Path, tmp_path: Path
+) -> None:
+    # Plain files (blocks read by the workers), gzip and several inputs (blocks sent with their
+    # bytes); the first blocks may be scored here while forkserver/spawn workers start.
+    gz = tmp_path / "p.fasta.gz"
+    gz.write_bytes(gzip.compress(PROTEINS.read_bytes()))
+    paths = [str(PROTEINS), str(mixed), str(gz)]
+    options = zb.make_options(ph=[7.0, 7.4])
+    expected = _through_engine(zb.InProcessEngine(options, "csv"), paths, 2)
+    engine = zb.ProcessEngine(options, "csv", 2, method=method)
+    assert engine.method == method
+    assert _through_engine(engine, paths, 2) == expected
+
+
+def test_auto_start_method_forks_only_without_other_threads() -> None:
+    import sys
+    import threading
+
+    if not sys.platform.startswith("linux"):
+        pytest.skip("fork is chosen on Linux only")
+    assert zb.start_method() == ("fork" if threading.active_count() == 1 else "forkserver")
+    stop = threading.Event()
+    other = threading.Thread(target=stop.wait)
+    other.start()
+    try:
+        assert zb.start_method() == "forkserver"
+    finally:
+        stop.set()
+        other.join()
+    with pytest.raises(ParameterError, match="'start_method' parameter of batch must be one of"):
+        zb.start_method("teleport")
+
+
+def test_a_worker_that_cannot_read_its_block_fails_the_run(tmp_path: Path) -> None:
+    path = tmp_path / "p.fasta"
+    path.write_bytes(PROTEINS.read_bytes() * 3)
+
+    def blocks() -> Iterator[zb.Block]:
+        for i, b in enumerate(zb.split_fasta(str(path), "p.fasta", 0, 5)):
+            if i == 2:
+                path.write_bytes(b">other\nMK\n")  # the file is replaced under the run
+            yield b
+
+    engine = zb.ProcessEngine(zb.make_options(), "csv", 2, method="fork")
+    with pytest.raises(InputFileError, match="the file changed while it was being scored"):
+        for _ in zb._ordered(engine, blocks()):
+            pass

@@ -18,18 +18,20 @@ The flow of a batch run::
   :class:`TextColumn` buffers that pyarrow takes as they are; Python loops only visit records
   with an error, a warning or an unusual header (blocks with old Mac line ends or text before
   the first header go through :func:`parse_fasta_block`, one string per record).
-* **Parallel and ordered.** ``jobs > 1`` scores blocks in ``jobs - 1`` worker processes and in
-  the main process, which scores a block itself whenever the workers have enough in hand (so it
-  also works while they start); results are taken back in input order, so the output keeps the
-  input order. The same block scorer runs on Dask (:mod:`zwitter.distributed`).
+* **Parallel and ordered.** ``jobs > 1`` scores blocks in ``jobs`` worker processes while the
+  main process cuts the input, collects the results and writes them (:class:`ProcessEngine`).
+  Blocks of a plain file travel as a :class:`FileSpan` and each worker reads its bytes from the
+  file; results are taken back in input order, so the output keeps the input order. The same
+  block scorer runs on Dask (:mod:`zwitter.distributed`).
 * **Nothing lost.** Every record appears once, in input order, including bad ones: their
   ``error`` column says what is wrong and where (input line, position in the sequence), and their
   numbers are empty. ``strict=True`` stops at the first bad record instead. A missing,
   truncated or corrupt input file is not a bad record but a bad input: InputFileError, and
   :func:`score_files` leaves no output file (the chunks before the damage are not written as if
   they were the whole file).
-* **Scripts.** With ``jobs > 1`` the workers re-import the script's main module (start method
-  forkserver, or spawn): put the call under ``if __name__ == "__main__":``.
+* **Scripts.** With ``jobs > 1`` and a start method other than fork (:func:`start_method`:
+  another thread is running, or the system is not Linux) the workers re-import the script's
+  main module: put the call under ``if __name__ == "__main__":``.
 
 Output columns
 --------------
@@ -60,15 +62,17 @@ import math
 import multiprocessing
 import os
 import signal
+import stat
 import sys
 import tempfile
 import threading
 import time
 import uuid
+import warnings
 import zlib
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from concurrent.futures import Future, ProcessPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import IO, TYPE_CHECKING, Any, Protocol
 
@@ -91,6 +95,7 @@ __all__ = [
     "BatchOptions",
     "BatchSummary",
     "Block",
+    "FileSpan",
     "InputFormat",
     "make_options",
     "charge_column",
@@ -572,13 +577,35 @@ def _check_chunk_size(chunk_size: int, where: str) -> None:
 
 # -- input formats ----------------------------------------------------------------------------
 @dataclass(frozen=True)
+class FileSpan:
+    """Where a block's bytes lie in a plain (uncompressed, seekable) input file.
+
+    A worker process on the same machine reads them from there itself (:meth:`Block.loaded`)
+    instead of receiving them through a pipe. ``identity`` (device, inode, size, modification
+    time) is the file's when the block was cut: if the file has changed since, the read is
+    refused rather than scoring other bytes than the ones the block's boundaries were found in.
+    """
+
+    path: str
+    offset: int
+    length: int
+    identity: tuple[int, int, int, int]
+
+
+def _identity(st: os.stat_result) -> tuple[int, int, int, int]:
+    return (st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns)
+
+
+@dataclass(frozen=True)
 class Block:
     """A run of whole records cut from one input, ready to send to a worker.
 
     ``scorer`` is a module-level function ``(block, options) -> Columns or DataFrame`` (it
     pickles by name; :func:`score_columns` / :func:`score_chunk` build either).
     ``raw_pos`` is how many bytes of the input file (compressed bytes for gzip) had been read when
-    the block was cut, for progress and ETA.
+    the block was cut, for progress and ETA. ``origin``, when set, says where ``data`` lies in
+    a plain input file, so that a local worker can be sent the block without its bytes
+    (:meth:`detached`) and read them itself (:meth:`loaded`).
     """
 
     source: str
@@ -587,6 +614,46 @@ class Block:
     first_line: int
     raw_pos: int
     scorer: Callable[[Block, BatchOptions], Columns | pd.DataFrame]
+    origin: FileSpan | None = None
+
+    def detached(self) -> Block:
+        """This block without its bytes when it knows where they lie (else itself)."""
+        if self.origin is None or not self.data:
+            return self
+        return replace(self, data=b"")
+
+    def loaded(self) -> Block:
+        """This block with its bytes, read from its file span when it was sent without them.
+
+        Raises InputFileError when the file cannot be read or has changed since the block was
+        cut.
+        """
+        span = self.origin
+        if self.data or span is None or span.length == 0:
+            return self
+        try:
+            fd = os.open(span.path, os.O_RDONLY)
+        except OSError as exc:
+            raise InputFileError(f"cannot open again: {exc.strerror or exc}", self.source) from None
+        try:
+            same = _identity(os.fstat(fd)) == span.identity
+            data = os.pread(fd, span.length, span.offset) if same else b""
+            while same and 0 < len(data) < span.length:  # pread may return less than asked
+                more = os.pread(fd, span.length - len(data), span.offset + len(data))
+                data += more
+                same = bool(more)
+        except OSError as exc:
+            text = f"read error in line {self.first_line}: {exc.strerror or exc}"
+            raise InputFileError(text, self.source) from None
+        finally:
+            os.close(fd)
+        if not same or len(data) != span.length:
+            raise InputFileError(
+                "the file changed while it was being scored (its size or modification time is "
+                "not what it was when it was opened); score a copy that nobody writes to",
+                self.source,
+            )
+        return replace(self, data=data)
 
 
 @dataclass(frozen=True)
@@ -714,70 +781,150 @@ def split_fasta(path: str, label: str, input_index: int, chunk_size: int) -> Ite
     A record starts at a ``>`` at the start of a line; text before the first header stays in the
     first block (and is reported there). Truncated or corrupt gzip raises
     :class:`~zwitter.errors.InputFileError` after the complete blocks before it were yielded.
+    Blocks of a plain regular file carry no bytes, only where they lie (:class:`FileSpan`):
+    :meth:`Block.loaded` reads them.
     """
     stream, raw, _ = _open_binary(path)
     try:
-        # The bytes not yet cut into blocks are kept as the chunks read (joining them once per
-        # block copies each byte once; a growing buffer would move them again and again).
-        chunks: list[bytes] = []
-        base = 0  # input offset of chunks[0][0]
-        end = 0  # input offset after the last chunk
-        starts: list[int] = []  # input offsets where a record starts
-        line = 1  # line number at offset base
-        prefix_done = False  # whether text before the first header was looked at
-        after_break = True  # whether the byte before `end` ends a line (or there is none)
-        eof = False
-
-        def take(cut: int) -> bytes:
-            """Remove and return the bytes from base up to offset ``cut``."""
-            nonlocal base
-            out, size = [], base
-            while chunks and size + len(chunks[0]) <= cut:
-                size += len(chunks[0])
-                out.append(chunks.pop(0))
-            if size < cut:
-                head = chunks[0]
-                out.append(head[: cut - size])
-                chunks[0] = head[cut - size :]
-            base = cut
-            return b"".join(out)
-
-        def line_now() -> int:  # where the input got to, for a truncation message
-            return line + sum(c.count(b"\n") for c in chunks)
-
-        while not eof:
-            data = _read(stream, path, line_now)
-            eof = not data
-            if data:
-                arr = np.frombuffer(data, dtype=np.uint8)
-                gt = np.flatnonzero(arr == ord(">"))
-                prev = arr[np.maximum(gt - 1, 0)]
-                line_start = (prev == ord("\n")) | (prev == ord("\r"))
-                if gt.size and gt[0] == 0:
-                    line_start[0] = after_break
-                starts.extend((gt[line_start] + end).tolist())
-                chunks.append(data)
-                end += len(data)
-                after_break = data[-1:] in (b"\n", b"\r")
-            if not prefix_done and starts:
-                prefix_done = True
-                if starts[0] > 0 and b"".join(chunks)[: starts[0]].strip():
-                    starts.insert(0, 0)  # text before the first header: a record of its own
-            # A block ends where record chunk_size + 1 begins.
-            while len(starts) > chunk_size:
-                cut = starts[chunk_size]
-                block = take(cut)
-                yield Block(label, input_index, block, line, _tell(raw), _score_fasta_block)
-                line += _count_newlines(block)
-                del starts[:chunk_size]
-        rest = take(end)
-        if rest.strip():
-            yield Block(label, input_index, rest, line, _tell(raw), _score_fasta_block)
+        if raw is stream and raw is not None and stat.S_ISREG(os.fstat(raw.fileno()).st_mode):
+            yield from _split_plain_fasta(raw, path, label, input_index, chunk_size)
+        else:
+            yield from _split_fasta_stream(stream, raw, path, label, input_index, chunk_size)
     finally:
         if stream is not sys.stdin.buffer:
             stream.close()
         if raw is not None and raw is not stream:
             raw.close()
+
+
+def _split_fasta_stream(
+    stream: IO[bytes], raw: IO[bytes] | None, path: str, label: str, input_index: int,
+    chunk_size: int,
+) -> Iterator[Block]:  # fmt: skip
+    """:func:`split_fasta` for gzip and stdin: the blocks carry their bytes."""
+    # The bytes not yet cut into blocks are kept as the chunks read (joining them once per
+    # block copies each byte once; a growing buffer would move them again and again).
+    chunks: list[bytes] = []
+    base = 0  # input offset of chunks[0][0]
+    end = 0  # input offset after the last chunk
+    starts: list[int] = []  # input offsets where a record starts
+    line = 1  # line number at offset base
+    prefix_done = False  # whether text before the first header was looked at
+    after_break = True  # whether the byte before `end` ends a line (or there is none)
+    eof = False
+
+    def take(cut: int) -> bytes:
+        """Remove and return the bytes from base up to offset ``cut``."""
+        nonlocal base
+        out, size = [], base
+        while chunks and size + len(chunks[0]) <= cut:
+            size += len(chunks[0])
+            out.append(chunks.pop(0))
+        if size < cut:
+            head = chunks[0]
+            out.append(head[: cut - size])
+            chunks[0] = head[cut - size :]
+        base = cut
+        return b"".join(out)
+
+    def line_now() -> int:  # where the input got to, for a truncation message
+        return line + sum(c.count(b"\n") for c in chunks)
+
+    while not eof:
+        data = _read(stream, path, line_now)
+        eof = not data
+        if data:
+            arr = np.frombuffer(data, dtype=np.uint8)
+            starts.extend((_line_starts(arr, ord(">"), after_break) + end).tolist())
+            chunks.append(data)
+            end += len(data)
+            after_break = data[-1:] in (b"\n", b"\r")
+        if not prefix_done and starts:
+            prefix_done = True
+            if starts[0] > 0 and b"".join(chunks)[: starts[0]].strip():
+                starts.insert(0, 0)  # text before the first header: a record of its own
+        # A block ends where record chunk_size + 1 begins.
+        while len(starts) > chunk_size:
+            cut = starts[chunk_size]
+            block = take(cut)
+            yield Block(label, input_index, block, line, _tell(raw), _score_fasta_block)
+            line += _count_newlines(block)
+            del starts[:chunk_size]
+    rest = take(end)
+    if rest.strip():
+        yield Block(label, input_index, rest, line, _tell(raw), _score_fasta_block)
+
+
+def _line_starts(arr: npt.NDArray[np.uint8], byte: int, after_break: bool) -> Any:
+    """Positions in ``arr`` of ``byte`` at the start of a line (after \\n or \\r; at 0 when
+    ``after_break``, i.e. the byte before ``arr`` ended a line)."""
+    hits = np.flatnonzero(arr == byte)
+    prev = arr[np.maximum(hits - 1, 0)]
+    line_start = (prev == ord("\n")) | (prev == ord("\r"))
+    if hits.size and hits[0] == 0:
+        line_start[0] = after_break
+    return hits[line_start]
+
+
+def _split_plain_fasta(
+    raw: IO[bytes], path: str, label: str, input_index: int, chunk_size: int
+) -> Iterator[Block]:
+    """:func:`split_fasta` for a plain regular file: blocks that only say where they lie.
+
+    The file is scanned through one reused buffer for record starts and line breaks; each block
+    is a :class:`FileSpan` with empty ``data``, and whoever scores it reads the bytes
+    (:meth:`Block.loaded`), in a worker process when there are workers. So cutting copies
+    nothing and holds no more than the buffer. The same blocks as :func:`_split_fasta_stream`
+    (tested).
+    """
+    identity = _identity(os.fstat(raw.fileno()))
+    buf = np.empty(_READ_SIZE, dtype=np.uint8)
+    view = memoryview(buf.data)
+    window = 0  # file offset of buf[0]
+    lines = 1  # line number at offset `window`
+    after_break = True  # whether the byte before `window` ends a line (or there is none)
+    starts: list[int] = []  # record starts not yet cut into blocks
+    block_start, block_line = 0, 1  # where the next block begins, and its line number
+    header_seen = prefix_text = False
+
+    def block(end: int) -> Block:
+        span = FileSpan(path, block_start, end - block_start, identity)
+        return Block(label, input_index, b"", block_line, end, _score_fasta_block, span)
+
+    while True:
+        try:
+            n = raw.readinto(view)  # type: ignore[attr-defined]
+        except OSError as exc:
+            text = f"read error in line {lines}: {exc.strerror or exc}"
+            raise InputFileError(text, path) from None
+        if not n:
+            break
+        arr = buf[:n]
+        found = _line_starts(arr, ord(">"), after_break)
+        if not header_seen:
+            # Text before the first header is a record of its own (reported as an error);
+            # blank lines there are not.
+            head = int(found[0]) if found.size else n
+            prefix_text = prefix_text or bool(bytes(arr[:head]).strip())
+            if found.size:
+                header_seen = True
+                if prefix_text:
+                    starts.append(0)
+        starts.extend((found + window).tolist())
+        breaks = np.flatnonzero(arr == ord("\n"))
+        # A block ends where record chunk_size + 1 begins (always in this window: before it,
+        # at most chunk_size starts were waiting).
+        while len(starts) > chunk_size:
+            cut = starts[chunk_size]
+            yield block(cut)
+            block_start = cut
+            block_line = lines + int(np.searchsorted(breaks, cut - window))
+            del starts[:chunk_size]
+        lines += breaks.size
+        after_break = bool(arr[-1] == ord("\n") or arr[-1] == ord("\r"))
+        window += n
+    if starts or prefix_text:
+        yield block(window)
 
 
 def _tell(raw: IO[bytes] | None) -> int:
@@ -1139,6 +1286,7 @@ class ChunkResult:
 def run_block(block: Block, options: BatchOptions, fmt: str = "frame") -> ChunkResult:
     """Score one block and encode it for the writer (the task every engine runs)."""
     opts = _canonical(options)
+    block = block.loaded()
     rows = block.scorer(block, opts)
     error = np.asarray(rows["error"], dtype=object)
     bad = error != ""
@@ -1183,13 +1331,7 @@ class InProcessEngine:
 
     def __init__(self, options: BatchOptions, fmt: str):
         self.options, self.fmt = options, fmt
-        self._limits: Any = None
-        try:
-            from threadpoolctl import threadpool_limits
-        except ImportError:
-            pass
-        else:
-            self._limits = threadpool_limits(limits=1, user_api="blas")
+        self._limits: Any = _limit_blas_threads()
 
     def submit(self, block: Block) -> _Ready:
         return _Ready(run_block(block, self.options, self.fmt))
@@ -1209,6 +1351,20 @@ def _init_worker(options: BatchOptions) -> None:
     # Ctrl-C reaches the whole process group: the main process stops the run (and removes the
     # partial output); workers just finish their chunk instead of printing tracebacks.
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    _limit_blas_threads()
+
+
+def _limit_blas_threads() -> Any:
+    """Limit BLAS to one thread in this process (the reason is at :data:`WORKER_THREAD_ENV`).
+
+    Returns the threadpoolctl limiter (its ``restore_original_limits`` undoes it), or None when
+    threadpoolctl is not installed.
+    """
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:
+        return None
+    return threadpool_limits(limits=1, user_api="blas")
 
 
 def _pool_task(block: Block, fmt: str) -> ChunkResult:
@@ -1232,14 +1388,34 @@ _PRELOAD = {
 }
 
 
-def _mp_context(fmt: str = "frame") -> Any:
-    # forkserver: workers fork from a clean server process that has imported zwitter (and the
-    # libraries of a chunk) once, which is quick and safe in a multi-threaded parent. The server
-    # takes its environment when it starts, so the thread limits are set around its start (and
-    # only where the user has not set them). spawn where forkserver does not exist.
+def start_method(requested: str = "auto") -> str:
+    """How worker processes start: ``fork``, ``forkserver`` or ``spawn``.
+
+    ``auto`` takes ``fork`` on Linux when this process runs no other Python thread: the workers
+    are then copies of this process with zwitter already imported, ready in milliseconds
+    instead of about half a second. The native thread pools such a process may have are made
+    for it: OpenBLAS stops its threads before a fork, jemalloc (pyarrow's allocator) and Arrow's
+    pools take their locks and restart in the child. Otherwise ``forkserver`` (safe beside any
+    thread: workers fork from a clean server process, which first imports numpy and zwitter),
+    and ``spawn`` where neither exists (macOS: fork is unsafe with its system libraries).
+    """
     methods = multiprocessing.get_all_start_methods()
-    if "forkserver" not in methods:
-        return multiprocessing.get_context("spawn")
+    if requested != "auto":
+        if requested not in methods:
+            raise ParameterError("start_method", "batch", f"one of auto, {', '.join(methods)}",
+                                 requested)  # fmt: skip
+        return requested
+    if sys.platform.startswith("linux") and "fork" in methods and threading.active_count() == 1:
+        return "fork"
+    return "forkserver" if "forkserver" in methods else "spawn"
+
+
+def _mp_context(method: str, fmt: str = "frame") -> Any:
+    if method != "forkserver":
+        return multiprocessing.get_context(method)
+    # forkserver: workers fork from a server process that has imported zwitter (and the
+    # libraries of a chunk) once. The server takes its environment when it starts, so the
+    # thread limits are set around its start (and only where the user has not set them).
     import multiprocessing.forkserver as forkserver
 
     ctx = multiprocessing.get_context("forkserver")
@@ -1267,32 +1443,58 @@ def _warm_up() -> None:
 
 
 class ProcessEngine:
-    """Scores blocks in ``jobs - 1`` worker processes and in this process: ``jobs`` in all.
+    """Scores blocks in ``jobs`` worker processes; this process reads, hands out and writes.
 
-    This process cuts the input into blocks and hands each to a worker while every worker has
-    fewer than two blocks in hand; otherwise it scores the block itself instead of waiting. So
-    it also works while the workers are still starting (about half a second: the forkserver
-    imports numpy, zwitter and pyarrow once), which a thread starts at once in the background.
-    Options are sent once per worker.
+    Blocks of a plain input file go to the workers without their bytes (:meth:`Block.detached`):
+    each worker reads its block from the file itself, so only small messages and the encoded
+    results cross the pipes, and this process stays light (cutting blocks, collecting results,
+    writing) and leaves the cores to the workers. A worker gets a new block while it has fewer
+    than two in hand.
+
+    With the ``fork`` start method (see :func:`start_method`) the workers are ready at once.
+    Otherwise they take about half a second to start (the forkserver imports numpy, zwitter and
+    pyarrow), which a background thread waits for while this process scores the first blocks
+    itself.
     """
 
-    def __init__(self, options: BatchOptions, fmt: str, jobs: int):
+    def __init__(self, options: BatchOptions, fmt: str, jobs: int, method: str = "auto"):
         self.fmt = fmt
-        self.workers = max(1, jobs - 1)
-        self.slots = 4 * jobs  # results held back to keep the input order (memory stays flat)
+        self.workers = max(1, jobs)
+        # results held back to keep the input order (memory stays flat)
+        self.slots = 4 * self.workers
+        self.method = start_method(method)
+        self._local: InProcessEngine | None = None
+        self._in_hand: list[Future[ChunkResult]] = []
+        self._started = threading.Event()
+        self._starter: threading.Thread | None = None
         self._pool = ProcessPoolExecutor(
             max_workers=self.workers,
-            mp_context=_mp_context(fmt),
+            mp_context=_mp_context(self.method, fmt),
             initializer=_init_worker,
             initargs=(options,),
         )
-        self._local = InProcessEngine(options, fmt)
-        self._in_hand: list[Future[ChunkResult]] = []
-        self._started = threading.Event()
-        # Starting a worker blocks until the forkserver has imported its modules: do that in a
-        # thread, and score here meanwhile. (A failed start shows as a broken pool on submit.)
-        self._starter = threading.Thread(target=self._start_workers, daemon=True)
-        self._starter.start()
+        if self.method == "fork":
+            # Start every worker now, while this process runs no other Python thread (a fork
+            # copies only the forking thread). Python 3.12+ warns about any fork of a process
+            # with other OS threads; those left here are native pools that handle a fork
+            # themselves (see start_method), so that generic warning is not passed on.
+            try:
+                with warnings.catch_warnings():
+                    warnings.filterwarnings("ignore", "This process .* is multi-threaded",
+                                            DeprecationWarning)  # fmt: skip
+                    for f in [self._pool.submit(_warm_up) for _ in range(self.workers)]:
+                        f.result()
+            except BaseException:
+                self._pool.shutdown(wait=True, cancel_futures=True)
+                raise
+            self._started.set()
+        else:
+            # Starting a worker blocks until the forkserver has imported its modules: do that
+            # in a thread, and score here meanwhile. (A failed start shows as a broken pool on
+            # submit.)
+            self._local = InProcessEngine(options, fmt)
+            self._starter = threading.Thread(target=self._start_workers, daemon=True)
+            self._starter.start()
 
     def _start_workers(self) -> None:
         try:
@@ -1304,12 +1506,10 @@ class ProcessEngine:
             self._started.set()
 
     def submit(self, block: Block) -> _Result:
-        if self._started.is_set():
-            self._in_hand = [f for f in self._in_hand if not f.done()]
-            if len(self._in_hand) < 2 * self.workers:
-                future = self._pool.submit(_pool_task, block, self.fmt)
-                self._in_hand.append(future)
-                return future
+        if self._started.is_set() or self._local is None:
+            future = self._pool.submit(_pool_task, block.detached(), self.fmt)
+            self._in_hand = [f for f in self._in_hand if not f.done()] + [future]
+            return future
         return self._local.submit(block)
 
     def close(self, cancel: bool) -> None:
@@ -1317,10 +1517,12 @@ class ProcessEngine:
             if cancel:
                 for f in self._in_hand:
                     f.cancel()
-            self._starter.join()
+            if self._starter is not None:
+                self._starter.join()
             self._pool.shutdown(wait=True, cancel_futures=cancel)
         finally:
-            self._local.close(cancel)
+            if self._local is not None:
+                self._local.close(cancel)
 
 
 def _ordered(engine: Engine, blocks: Iterator[Block]) -> Iterator[ChunkResult]:
@@ -1600,10 +1802,16 @@ def score_files(
     progress = progress or Progress(total)
     started = time.monotonic()
     records = errors = 0
-    writer = _Writer(out, fmt, compressed, columns)
+    # The engine first: forked workers start before this process opens the output or loads
+    # the libraries that write it.
+    run = _engine(opts, fmt, workers, engine, scheduler)
+    try:
+        writer = _Writer(out, fmt, compressed, columns)
+    except BaseException:
+        run.close(cancel=True)
+        raise
     committed = False
     try:
-        run = _engine(opts, fmt, workers, engine, scheduler)
         for result in _ordered(run, _blocks(paths, formats, chunk_size)):
             if strict and result.n_errors:
                 raise InputFileError(

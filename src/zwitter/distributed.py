@@ -227,7 +227,8 @@ class DaskEngine:
         self._options = self.client.scatter(options, broadcast=True, hash=False)
 
     def submit(self, block: Block) -> Any:
-        data = self.client.scatter(block, hash=False)
+        # Workers may run on other machines, without the input file: blocks go with their bytes.
+        data = self.client.scatter(block.loaded(), hash=False)
         return self.client.submit(run_block, data, self._options, self.fmt, pure=False)
 
     def close(self, cancel: bool) -> None:

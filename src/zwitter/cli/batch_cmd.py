@@ -75,7 +75,8 @@ def batch(
             "--jobs",
             "-j",
             min=0,
-            help="Processes that score (this one and N-1 workers); 0 = one per CPU core.",
+            help="Processes that score: 1 = this one; N > 1 = N workers while this one reads "
+            "and writes; 0 = one per CPU core.",
         ),
     ] = 1,
     strict: Annotated[
