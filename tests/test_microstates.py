@@ -6,7 +6,9 @@ macroscopic pKa values of the homologous series the coupling is calibrated on
 (data/reference/small_molecule_pka.csv, role calibration); for the peptide coupling factor the
 pKa of glycylglycine, triglycine (CRC) and glutathione (Rabenstein 1973) and the measured pI of
 glucagon and thymosin alpha-1 (data/reference/measured_pi.csv); for the aminopolycarboxylic acid
-value the carboxyl steps of nitrilotriacetic acid (CRC; Martell & Smith).
+value the carboxyl steps of nitrilotriacetic acid (CRC; Martell & Smith); for the aminocarboxylate
+coupling factor the amine steps of EDTA, DTPA and HEDTA (Martell & Smith, I = 0.1 M); for the
+saturation of repeated polar substituents Taft's sigma* of ClCH2, Cl2CH and Cl3C (Taft 1956).
 """
 
 from __future__ import annotations
@@ -206,6 +208,12 @@ PEPTIDE_ROWS = (
 )
 
 
+CLASS_ROWS = (
+    "diethylenetriaminepentaacetic acid (DTPA)",
+    "N-(2-hydroxyethyl)ethylenediamine-N,N',N'-triacetic acid (HEDTA)",
+)
+
+
 def _reference_rows() -> list[dict[str, str]]:
     with open(REFERENCE, encoding="utf-8") as fh:
         return list(csv.DictReader(line for line in fh if not line.startswith("#")))
@@ -219,6 +227,7 @@ def _calibration_rows() -> list[dict[str, str]]:
 
 def test_every_calibration_row_fits_a_named_parameter() -> None:
     fitted = set(COUPLING_ROWS) | set(PEPTIDE_ROWS) | {"nitrilotriacetic acid"}
+    fitted |= {"EDTA"} | set(CLASS_ROWS)  # the aminocarboxylate coupling factor and its class
     assert {r["name"] for r in _reference_rows() if r["role"] == "calibration"} == fitted
 
 
@@ -359,3 +368,62 @@ def test_aminopolycarboxylic_value_is_the_nta_least_squares_fit() -> None:
     base = sse(stored.pkas[0])
     for step in (-0.05, 0.05):
         assert sse(stored.pkas[0] + step) > base
+
+
+# -- aminocarboxylate nitrogens ------------------------------------------------------------------
+def _scored_residuals(name: str, coupling: Coupling, last: int | None = None) -> list[float]:
+    """Residuals of a reference row's scored values (optionally only its ``last`` steps)."""
+    row = next(r for r in _reference_rows() if r["name"] == name)
+    pred = _structure(row["smiles"], coupling).pkas()
+    pairs = list(zip(pred, row["pkas"].split(";")))[-(last or len(pred)) :]
+    return [p - float(r) for p, r in pairs if r != "nd"]
+
+
+def test_aminocarboxylate_factor_is_the_edta_least_squares_fit() -> None:
+    # EDTA amine steps 6.13 and 10.37 (Martell & Smith vol. 1, I = 0.1 M): the stored factor
+    # minimises their squared error; a plain coupling (factor 1) leaves them 0.6 off.
+    base = default_coupling()
+    assert base.aminocarboxylate > 1.0
+
+    def sse(factor: float) -> float:
+        trial = dataclasses.replace(base, aminocarboxylate=factor)
+        return float(sum(x**2 for x in _scored_residuals("EDTA", trial, last=2)))
+
+    at = sse(base.aminocarboxylate)
+    assert at < 0.01
+    for step in (-0.03, 0.03):
+        assert sse(base.aminocarboxylate + step) > at
+    plain = _scored_residuals("EDTA", dataclasses.replace(base, aminocarboxylate=1.0), last=2)
+    assert max(abs(x) for x in plain) > 0.5
+
+
+def test_aminocarboxylate_class_was_chosen_on_dtpa_and_hedta() -> None:
+    # DTPA 4.27, 8.60, 10.58 and HEDTA 2.62, 5.37, 9.81 (Martell & Smith, I = 0.1 M): the class
+    # 'any amine N bonded to a carbon carrying CO2H' fits them; the narrower class 'N with two
+    # CH2CO2H arms' (the iminodiacetate N of the aminopolycarboxylic_acid group) misses DTPA's 4.27
+    # step and HEDTA's 5.37 step by more than 1.
+    base = default_coupling()
+    narrow = dataclasses.replace(
+        base,
+        aminocarboxylate_smarts="[NX3+0:1](-[CX4]-[CX3](=O)[OX2H1])-[CX4]-[CX3](=O)[OX2H1]",
+    )
+    for name in CLASS_ROWS:
+        stored = _scored_residuals(name, base)
+        other = _scored_residuals(name, narrow)
+        assert max(abs(x) for x in stored) < 0.5, (name, stored)
+        assert max(abs(x) for x in other) > 1.0, (name, other)
+
+
+def test_saturation_factor_fits_taft_sigma_star() -> None:
+    # Taft 1956 (in Newman (ed.), Steric Effects in Organic Chemistry; from memory): sigma* of
+    # ClCH2 1.05, Cl2CH 1.94, Cl3C 2.65. With the k-th Cl counting f**(k - 1): 1 + f and
+    # 1 + f + f**2 should be 1.848 and 2.524; f is their least-squares value (to 0.01).
+    from zwitter.structure import taft_saturation
+
+    f, source = taft_saturation()
+    assert "Taft 1956" in source
+    two, three = 1.94 / 1.05, 2.65 / 1.05
+    grid = np.linspace(0.5, 1.0, 501)
+    sse = (1 + grid - two) ** 2 + (1 + grid + grid**2 - three) ** 2
+    assert abs(f - float(grid[sse.argmin()])) < 0.01
+    assert abs(1 + f - two) < 0.05 and abs(1 + f + f**2 - three) < 0.05

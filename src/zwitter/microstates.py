@@ -18,7 +18,10 @@ carries the rest. For two charges a distance d bonds apart,
 with one (A, f) pair for two anions, one for two cations and one for opposite charges
 (lfer_reactions.csv, rows ``coupling_*``), and ``paths`` the number of shortest bond paths (at
 most 3: both ways round a ring). Between two residues of a peptide (both sites of the group family
-``peptide``) w is multiplied by the factor of row ``coupling_peptide`` (:attr:`Coupling.peptide`).
+``peptide``) w is multiplied by the factor of row ``coupling_peptide`` (:attr:`Coupling.peptide`);
+between two aminocarboxylate nitrogens (both titrating atoms match the SMARTS of row
+``coupling_aminocarboxylate``: the amines of EDTA-like chelators) the cation-cation w is multiplied
+by that row's factor (:attr:`Coupling.aminocarboxylate`).
 
 Grouping microstates by L gives the binding polynomial (by protons bound, T - L): the macroscopic
 pKa values are pKa_L = log10 Z_(L-1) - log10 Z_L with Z_L = sum over microstates with L protons
@@ -70,7 +73,10 @@ class Coupling:
     ``w(d) = amplitude * attenuation**(d - d0)`` with one (amplitude, attenuation) pair for two
     anions, one for two cations and one for opposite charges. ``peptide`` scales the interaction
     of two sites that are both residues of a peptide (group family ``peptide``; the structure
-    reader applies it, see ``lfer_reactions.csv`` row ``coupling_peptide``).
+    reader applies it, see ``lfer_reactions.csv`` row ``coupling_peptide``). ``aminocarboxylate``
+    scales the cation-cation interaction of two sites whose titrating atoms both match
+    ``aminocarboxylate_smarts`` (row ``coupling_aminocarboxylate``; the structure reader applies
+    it).
 
     Examples
     --------
@@ -85,6 +91,8 @@ class Coupling:
     d0: float
     source: str = ""
     peptide: float = 1.0
+    aminocarboxylate: float = 1.0
+    aminocarboxylate_smarts: str = ""
 
     def strength(self, d: npt.ArrayLike, pair: str = "anion") -> FloatArray:
         """w at topological distance ``d`` (bonds) for ``pair`` = anion, cation or opposite.
@@ -117,14 +125,18 @@ def default_coupling() -> Coupling:
     if len(d0s) != 1:
         raise ValueError("lfer_reactions.csv: the coupling rows must share d0")
     peptide = rows["coupling_peptide"].number("rho") if "coupling_peptide" in rows else 1.0
+    chelator = rows.get("coupling_aminocarboxylate")
     return Coupling(
         pairs["anion"],
         pairs["cation"],
         pairs["opposite"],
         d0s.pop(),
         "site coupling fitted here (lfer_reactions.csv, rows coupling_anion, coupling_cation, "
-        "coupling_opposite; coupling_peptide between two peptide residues)",
+        "coupling_opposite; coupling_peptide between two peptide residues; "
+        "coupling_aminocarboxylate between two aminocarboxylate nitrogens)",
         peptide,
+        chelator.number("rho") if chelator is not None else 1.0,
+        chelator["smarts"] if chelator is not None else "",
     )
 
 

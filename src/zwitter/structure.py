@@ -19,10 +19,14 @@ The path from a structure to its charge:
 4. **Assign a pKa** to each site: the group's parent value, then the linear free-energy corrections
    of its reaction class (``data/lfer_reactions.csv``): Hammett sums over ring substituents, Taft
    sigma* sums with attenuation per bond over aliphatic substituents, each recorded with its source
-   (``site_table()``, ``explain()``). Substituents that are themselves ionizable enter in their
-   neutral form; their charge acts through the coupling of step 5, never twice.
+   (``site_table()``, ``explain()``). Repeated polar substituents of one site saturate: ranked by
+   size, the k-th Taft term counts f**(k - 1), f = 0.83 from Taft's sigma* of ClCH2, Cl2CH, Cl3C
+   (lfer_reactions.csv row ``taft_saturation``; three arms on one amine N, three Cl on one carbon).
+   Substituents that are themselves ionizable enter in their neutral form; their charge acts
+   through the coupling of step 5, never twice.
 5. **Couple the sites** (:mod:`zwitter.microstates`): charged sites interact with a strength that
-   falls with the number of bonds between them; microstates are enumerated exactly (up to 2**16),
+   falls with the number of bonds between them (two aminocarboxylate nitrogens, as in EDTA, repel
+   more: row ``coupling_aminocarboxylate``); microstates are enumerated exactly (up to 2**16),
    giving populations, the dominant form as a SMILES, macroscopic pKa values and the pI.
 
 Peptides drawn as SMILES: the residues of a peptide (alpha-amine and alpha-carboxyl of the termini,
@@ -33,7 +37,8 @@ A non-natural residue gives whatever generic groups it contains.
 
 Known limits (documented in data/reference/README.md with measured errors): no tautomer
 normalisation (a group is recognised in the tautomer drawn), ortho substituents use para constants,
-no geometry (cis/trans diacids look alike), multiple halogens on one carbon are over-counted.
+no geometry (cis/trans diacids look alike; CDTA is drawn like EDTA), secondary aminocarboxylate
+amines (iminodiacetic acid, EDDA) come out 0.6-1.0 too basic.
 """
 
 from __future__ import annotations
@@ -314,9 +319,9 @@ def reactions() -> dict[str, Reaction]:
     """Hammett and Taft reaction classes by key."""
     out = {}
     for r in packaged_csv(_LFER_FILE, ("key", "kind", "rho", "d0", "attenuation", "para_constant")):
-        if r["kind"] not in ("hammett", "taft", "coupling"):
+        if r["kind"] not in ("hammett", "taft", "coupling", "saturation"):
             raise ScaleError(f"unknown kind {r['kind']!r}", r.path, r.line, "kind")
-        if r["kind"] == "coupling":
+        if r["kind"] in ("coupling", "saturation"):
             continue
         out[r["key"]] = Reaction(
             r["key"],
@@ -328,6 +333,31 @@ def reactions() -> dict[str, Reaction]:
             _expand_source(r["source"], _SOURCE_ABBREVIATIONS),
         )
     return out
+
+
+@cache
+def taft_saturation() -> tuple[float, str]:
+    """(f, source) of row ``taft_saturation``: the k-th polar term of one site counts f**(k - 1).
+
+    1.0 (no saturation) when the row is absent.
+    """
+    for r in packaged_csv(_LFER_FILE, ("key", "kind", "rho")):
+        if r["kind"] == "saturation":
+            f = r.number("rho")
+            if not 0.0 < f <= 1.0:
+                raise ScaleError(
+                    f"saturation factor must be in (0, 1], got {f:g}", r.path, r.line, "rho"
+                )
+            return f, _expand_source(r["source"], _SOURCE_ABBREVIATIONS)
+    return 1.0, ""
+
+
+@cache
+def _class_query(smarts: str) -> Any:
+    """Compiled SMARTS of a coupling class (lfer_reactions.csv column smarts)."""
+    rows = packaged_csv(_LFER_FILE, ("key", "kind", "rho"))
+    row = next((r for r in rows if r["smarts"] == smarts), Row({}, _LFER_FILE, 0))
+    return _query(smarts, row, "coupling-class")
 
 
 _ELEMENT_TOKEN = re.compile(r"^\[(#\d+|Cl|Br|[A-Z][a-z]?|[a-z])")
@@ -750,7 +780,8 @@ def _taft(
 
     X counts when it is ``d0 <= d <= d0 + 3`` bonds from the titrating atom and is reached from a
     chain atom (not through a substituent already counted: the ring atoms beyond a phenyl, the O of
-    a carboxy). Substituents without sigma* (alkyl, vinyl) are part of the chain.
+    a carboxy). Substituents without sigma* (alkyl, vinyl) are part of the chain. Repeated terms
+    saturate (:func:`_saturate`).
     """
     out = []
     lo, hi = reaction.d0, reaction.d0 + 3
@@ -792,6 +823,36 @@ def _taft(
                 f"sigma*: {sub.source_taft}; rho*: {reaction.source}",
             )
         )
+    return _saturate(out)
+
+
+def _saturate(terms: list[Correction]) -> list[Correction]:
+    """Repeated polar substituents of one site count less than additively.
+
+    Taft's sigma* of ClCH2, Cl2CH and Cl3C (1.05, 1.94, 2.65) grow by 0.85 and then 0.68 of the
+    first chlorine's value: each added electron-withdrawing group pulls on a centre the others have
+    already made poorer in electrons. Terms of one sign are ranked by size; the k-th is multiplied
+    by f**(k - 1) (f: lfer_reactions.csv row taft_saturation, fitted to those sigma* values).
+    """
+    f, source = taft_saturation()
+    if f == 1.0 or len(terms) < 2:
+        return terms
+    out = list(terms)
+    for sign in (1.0, -1.0):
+        same = [i for i, c in enumerate(terms) if c.value * sign > 0]
+        same.sort(key=lambda i: -abs(terms[i].value))  # stable: nearest first among equals
+        for rank, i in enumerate(same[1:], start=1):
+            c = terms[i]
+            # Saturation: the k-th term times f**(k - 1) (Taft 1956 sigma* of Cl-substituted
+            # methyls, lfer_reactions.csv row taft_saturation).
+            out[i] = Correction(
+                c.kind,
+                c.substituent,
+                c.atom,
+                f"{c.detail}; polar term no. {rank + 1} of this site: x {f:g}^{rank}",
+                c.value * f**rank,
+                f"{c.source}; saturation: {source}",
+            )
     return out
 
 
@@ -926,6 +987,19 @@ def _coupling_inputs(an: _Analysis, coupling: Coupling) -> tuple[PairTable, Pair
         if pep.sum() > 1:
             scale = np.where(np.outer(pep, pep), coupling.peptide, 1.0)
             pairs = PairTable(pairs.anion * scale, pairs.cation * scale, pairs.opposite * scale)
+    if coupling.aminocarboxylate != 1.0 and coupling.aminocarboxylate_smarts:
+        # Two ammonium N that each carry a carboxylate arm (EDTA-like chelators) repel more than
+        # two plain ammoniums at the same bond distance (lfer_reactions.csv row
+        # coupling_aminocarboxylate, fitted on EDTA; data/reference/README.md gives the reasoning).
+        cations = [i for i, s in enumerate(an.sites) if s.group.charge > 0]
+        if len(cations) > 1:
+            query = _class_query(coupling.aminocarboxylate_smarts)
+            members = {m[0] for m in an.mol.GetSubstructMatches(query)}
+            chel = np.zeros(k, dtype=bool)
+            chel[[i for i in cations if an.sites[i].atoms[0] in members]] = True
+            if chel.sum() > 1:
+                scale = np.where(np.outer(chel, chel), coupling.aminocarboxylate, 1.0)
+                pairs = PairTable(pairs.anion, pairs.cation * scale, pairs.opposite)
     fdist = np.full((k, p), np.inf)
     fpaths = np.ones((k, p))
     for i in range(k):
