@@ -130,3 +130,38 @@ def test_properties_of_charge(sites: list[Site], ph: float) -> None:
     res = eq.isoelectric_point(ss)
     if not math.isnan(res.values[0]):
         assert abs(float(eq.net_charge(res.values[0], ss))) < 1e-6
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    st.lists(site_strategy, min_size=1, max_size=5),
+    st.lists(st.lists(st.integers(0, 30), min_size=5, max_size=5), min_size=2, max_size=40),
+    st.randoms(use_true_random=False),
+)
+def test_a_rows_pi_does_not_depend_on_the_other_rows(
+    sites: list[Site], rows: list[list[int]], rng: object
+) -> None:
+    # The root search of a batch starts from a matrix product whose rounding may depend on a
+    # row's place; the pI must not: every row alone, and the rows in another order, give the same
+    # bits.
+    base = SiteSet.from_sites(sites)
+    counts = np.array([r[: len(sites)] for r in rows], dtype=float)
+    batch = eq.isoelectric_point(base.with_counts(counts)).values
+    order = np.arange(len(rows))
+    rng.shuffle(order)  # type: ignore[attr-defined]
+    shuffled = eq.isoelectric_point(base.with_counts(counts[order])).values
+    assert np.array_equal(shuffled, batch[order], equal_nan=True)
+    for i in range(len(rows)):
+        alone = eq.isoelectric_point(base.with_counts(counts[i])).values[0]
+        assert alone == batch[i] or (math.isnan(alone) and math.isnan(batch[i]))
+
+
+def test_pi_on_a_point_of_the_starting_grid() -> None:
+    # One acid (pKa 5) and one base (pKa 9) of charge +1: the pI is their mean, 7.0, which is a
+    # point of the grid the batch search starts on; the rows around it are not on the grid.
+    base = SiteSet.from_sites([Site("COOH", (5.0,), 0), Site("NH3+", (9.0,), 1)])
+    counts = np.array([[1.0, 1.0], [2.0, 1.0], [1.0, 2.0], [1.0, 1.0]])
+    res = eq.isoelectric_point(base.with_counts(counts))
+    assert res.values[0] == pytest.approx(7.0, abs=1e-12) and res.values[3] == res.values[0]
+    for i in (1, 2):  # checked against the charge, not against the search
+        assert abs(float(eq.net_charge(res.values[i], base.with_counts(counts[i])))) < 1e-9
