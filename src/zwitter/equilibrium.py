@@ -168,7 +168,11 @@ class _Titration:
     def __init__(self, sites: SiteSet) -> None:
         counts = np.atleast_2d(sites.counts)
         self.n = counts.shape[0]
-        self.top = counts @ sites.charges  # charge with every group protonated (and permanent)
+        # charge with every group protonated (and permanent), a column at a time: a matrix
+        # product may round a row differently depending on its place in the matrix
+        self.top = np.zeros(self.n)
+        for k in np.flatnonzero(sites.charges).tolist():
+            self.top += counts[:, k] * sites.charges[k]
         pkas = sites.pkas
         if pkas.shape[-1] == 0:  # only permanent charges
             pkas = np.full(pkas.shape[:-1] + (1,), np.nan)
@@ -212,10 +216,14 @@ class _Titration:
         var = np.zeros(self.n) + np.bincount(self.r1, self.w1 * f * (1.0 - f), self.n)
         if self.rm.size:
             fr = state_fractions(ph[self.rm], self.pm)  # (nnz, S + 1)
-            j = np.arange(fr.shape[-1], dtype=np.float64)
-            mean = fr @ j
+            # mean and mean square of the protons lost, a state at a time (row by row, as above)
+            mean = np.zeros(fr.shape[0])
+            square = np.zeros(fr.shape[0])
+            for j in range(1, fr.shape[-1]):
+                mean += j * fr[:, j]
+                square += j * j * fr[:, j]
             lost += np.bincount(self.rm, self.wm * mean, self.n)
-            var += np.bincount(self.rm, self.wm * (fr @ (j * j) - mean * mean), self.n)
+            var += np.bincount(self.rm, self.wm * (square - mean * mean), self.n)
         return self.top - lost, -_LN10 * var
 
 
