@@ -762,3 +762,49 @@ def test_a_worker_that_cannot_read_its_block_fails_the_run(tmp_path: Path) -> No
     with pytest.raises(InputFileError, match="the file changed while it was being scored"):
         for _ in zb._ordered(engine, blocks()):
             pass
+
+
+def test_keeping_freed_memory_is_switched_on_and_back(monkeypatch: pytest.MonkeyPatch) -> None:
+    import sys
+
+    calls: list[tuple[int, int]] = []
+
+    class Libc:
+        def mallopt(self, param: int, value: int) -> int:
+            calls.append((param, value))
+            return 1
+
+    if not sys.platform.startswith("linux"):
+        assert zb.keep_freed_memory(True) is False
+        return
+    import ctypes
+
+    monkeypatch.setattr(ctypes, "CDLL", lambda name: Libc())
+    engine = zb.InProcessEngine(zb.make_options(), "csv")
+    assert calls == list(zb._MALLOC_SCORING.items())
+    engine.close(cancel=False)
+    assert calls[3:] == list(zb._MALLOC_DEFAULTS.items())
+    engine.close(cancel=False)  # once only
+    assert len(calls) == 6
+    # mallopt(3): M_TRIM_THRESHOLD, M_TOP_PAD, M_MMAP_THRESHOLD default to 128 kB each
+    assert zb._MALLOC_DEFAULTS == {-1: 131072, -2: 131072, -3: 131072}
+
+
+@pytest.mark.parametrize("jobs", [1, 2])
+def test_gzip_output_is_the_text_output_compressed_chunk_by_chunk(
+    jobs: int, mixed: Path, tmp_path: Path
+) -> None:
+    import shutil
+    import subprocess
+
+    plain, packed = tmp_path / "s.tsv", tmp_path / "s.tsv.gz"
+    for out in (plain, packed):
+        zb.score_files([PROTEINS, mixed], out, ph=[7.0], chunk_size=3, jobs=jobs)
+    data = packed.read_bytes()
+    assert gzip.decompress(data) == plain.read_bytes()
+    # one gzip member for the header line and one per chunk, each closed (RFC 1952)
+    n_records = len(list(read_fasta(PROTEINS))) + len(MIXED_IDS)
+    assert data.count(b"\x1f\x8b\x08") >= 1 + math.ceil(n_records / 3) - 1
+    if shutil.which("gzip"):  # the system's gzip reads the members as one stream
+        res = subprocess.run(["gzip", "-dc", str(packed)], capture_output=True, check=True)
+        assert res.stdout == plain.read_bytes()
