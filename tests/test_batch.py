@@ -808,3 +808,52 @@ def test_gzip_output_is_the_text_output_compressed_chunk_by_chunk(
     if shutil.which("gzip"):  # the system's gzip reads the members as one stream
         res = subprocess.run(["gzip", "-dc", str(packed)], capture_output=True, check=True)
         assert res.stdout == plain.read_bytes()
+
+
+@pytest.mark.parametrize("strict", [False, True])
+def test_two_jobs_leave_only_the_output_or_nothing(
+    strict: bool, mixed: Path, tmp_path: Path
+) -> None:
+    # Workers leave their encoded chunks in a spool folder beside the output; it goes with the
+    # run, whether the output is written or, under strict, abandoned at the first bad record.
+    inputs = tmp_path / "in"
+    inputs.mkdir()
+    fasta = inputs / "many.fasta"
+    fasta.write_bytes(PROTEINS.read_bytes() * 20 + MIXED[MIXED.index(b">") :])
+    out_dir = tmp_path / "out"
+    out_dir.mkdir()
+    out = out_dir / "s.csv"
+    if strict:
+        with pytest.raises(InputFileError, match="--strict stops at the first bad record"):
+            zb.score_files(fasta, out, chunk_size=7, jobs=2, strict=True)
+        assert list(out_dir.iterdir()) == []
+        return
+    summary = zb.score_files(fasta, out, chunk_size=7, jobs=2)
+    assert [p.name for p in out_dir.iterdir()] == ["s.csv"]
+    one = out_dir / "one.csv"
+    zb.score_files(fasta, one, chunk_size=7, jobs=1)
+    assert out.read_bytes() == one.read_bytes()
+    assert summary.records == len(list(read_fasta(PROTEINS))) * 20 + len(MIXED_IDS) - 1
+
+
+def test_a_spooled_chunk_is_appended_whole_without_copy_file_range(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    import os
+
+    data = bytes(range(256)) * 5000  # 1.28 MB: more than one read of the fallback copy
+    for copy in (True, False):
+        if not copy:
+
+            def refuse(*args: object) -> int:
+                raise OSError(18, "Invalid cross-device link")
+
+            monkeypatch.setattr(os, "copy_file_range", refuse, raising=False)
+        chunk = zb.Spooled.write(str(tmp_path), data)
+        out = tmp_path / f"out{copy}.bin"
+        with out.open("wb") as fh:
+            fh.write(b"head")
+            chunk.append_to(fh)
+            fh.write(b"tail")
+        assert out.read_bytes() == b"head" + data + b"tail"
+        assert not Path(chunk.path).exists()

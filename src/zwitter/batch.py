@@ -61,6 +61,7 @@ import gzip
 import math
 import multiprocessing
 import os
+import shutil
 import signal
 import stat
 import sys
@@ -70,7 +71,7 @@ import time
 import uuid
 import warnings
 import zlib
-from collections.abc import Callable, Iterable, Iterator, Sequence
+from collections.abc import Callable, Generator, Iterable, Iterator, Sequence
 from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -1260,6 +1261,8 @@ class _Writer:
         if self._parquet is not None:
             if payload.num_rows:
                 self._parquet.write_table(payload)
+        elif isinstance(payload, Spooled):
+            payload.append_to(self._handle)
         elif payload:
             self._handle.write(payload)
 
@@ -1425,9 +1428,63 @@ def _limit_blas_threads() -> Any:
     return threadpool_limits(limits=1, user_api="blas")
 
 
-def _pool_task(block: Block, fmt: str) -> ChunkResult:
+def _pool_task(block: Block, fmt: str, spool: str | None = None) -> ChunkResult:
     assert _WORKER_OPTIONS is not None
-    return run_block(block, _WORKER_OPTIONS, fmt)
+    result = run_block(block, _WORKER_OPTIONS, fmt)
+    if spool is not None and isinstance(result.payload, bytes):
+        result = replace(result, payload=Spooled.write(spool, result.payload))
+    return result
+
+
+@dataclass(frozen=True)
+class Spooled:
+    """A chunk's encoded bytes left by a worker in a file of the run's spool folder.
+
+    The writer appends them to the output inside the kernel (``copy_file_range``) and deletes
+    the file, so a chunk's bytes are not carried through a pipe, unpickled and written again by
+    the main process, which stays free for cutting and collecting.
+    """
+
+    path: str
+    size: int
+
+    @classmethod
+    def write(cls, folder: str, data: bytes) -> Spooled:
+        fd, path = tempfile.mkstemp(dir=folder, suffix=".chunk")
+        try:
+            view = memoryview(data)
+            while view:
+                view = view[os.write(fd, view) :]
+        finally:
+            os.close(fd)
+        return cls(path, len(data))
+
+    def append_to(self, out: IO[bytes]) -> None:
+        out.flush()
+        src = os.open(self.path, os.O_RDONLY)
+        try:
+            left = self.size
+            copy = getattr(os, "copy_file_range", None)
+            while left and copy is not None:
+                try:
+                    n = copy(src, out.fileno(), left)
+                except OSError:  # not across these file systems: copy through memory
+                    break
+                if n == 0:
+                    break
+                left -= n
+            if left:
+                os.lseek(src, self.size - left, os.SEEK_SET)
+                while left:
+                    data = os.read(src, min(left, 1 << 20))
+                    if not data:
+                        raise OSError(f"chunk file {self.path} is shorter than it was written")
+                    out.write(data)
+                    left -= len(data)
+                out.flush()
+        finally:
+            os.close(src)
+            os.unlink(self.path)
 
 
 #: Thread-pool sizes for the numerical libraries in worker processes. Parallelism is one worker
@@ -1516,8 +1573,16 @@ class ProcessEngine:
     itself.
     """
 
-    def __init__(self, options: BatchOptions, fmt: str, jobs: int, method: str = "auto"):
+    def __init__(
+        self,
+        options: BatchOptions,
+        fmt: str,
+        jobs: int,
+        method: str = "auto",
+        spool: str | None = None,
+    ):
         self.fmt = fmt
+        self.spool = spool  # a folder where workers leave encoded chunks (Spooled), or None
         self.workers = max(1, jobs)
         # results held back to keep the input order (memory stays flat)
         self.slots = 4 * self.workers
@@ -1566,7 +1631,7 @@ class ProcessEngine:
 
     def submit(self, block: Block) -> _Result:
         if self._started.is_set() or self._local is None:
-            future = self._pool.submit(_pool_task, block.detached(), self.fmt)
+            future = self._pool.submit(_pool_task, block.detached(), self.fmt, self.spool)
             self._in_hand = [f for f in self._in_hand if not f.done()] + [future]
             return future
         return self._local.submit(block)
@@ -1584,7 +1649,7 @@ class ProcessEngine:
                 self._local.close(cancel)
 
 
-def _ordered(engine: Engine, blocks: Iterator[Block]) -> Iterator[ChunkResult]:
+def _ordered(engine: Engine, blocks: Iterator[Block]) -> Generator[ChunkResult, None, None]:
     """Results in submission order, with at most ``engine.slots`` blocks in flight."""
     pending: collections.deque[_Result] = collections.deque()
     ok = False
@@ -1608,7 +1673,12 @@ def resolve_jobs(jobs: int, where: str = "batch") -> int:
 
 
 def _engine(
-    options: BatchOptions, fmt: str, jobs: int, engine: str, scheduler: str | None
+    options: BatchOptions,
+    fmt: str,
+    jobs: int,
+    engine: str,
+    scheduler: str | None,
+    spool: str | None = None,
 ) -> Engine:
     if engine == "dask":
         from .distributed import DaskEngine
@@ -1618,7 +1688,9 @@ def _engine(
         raise ParameterError("engine", "batch", "'local' or 'dask'", engine)
     if scheduler is not None:
         raise ParameterError("scheduler", "batch", "given only with engine='dask'", scheduler)
-    return InProcessEngine(options, fmt) if jobs == 1 else ProcessEngine(options, fmt, jobs)
+    if jobs == 1:
+        return InProcessEngine(options, fmt)
+    return ProcessEngine(options, fmt, jobs, spool=spool)
 
 
 def _as_paths(inputs: str | os.PathLike[str] | Iterable[str | os.PathLike[str]]) -> list[str]:
@@ -1860,18 +1932,40 @@ def score_files(
     offsets, total = _sizes(paths)
     progress = progress or Progress(total)
     started = time.monotonic()
+    # Local workers leave text chunks in a spool folder beside the output (Spooled); it goes
+    # with the run, whatever happens.
+    spool = None
+    if workers > 1 and engine == "local" and fmt != "parquet":
+        spool = tempfile.mkdtemp(dir=out.parent, prefix=f".{out.name}.", suffix=".chunks")
+    try:
+        # The engine first: forked workers start before this process opens the output or
+        # loads the libraries that write it.
+        run = _engine(opts, fmt + ".gz" if compressed else fmt, workers, engine, scheduler, spool)
+        try:
+            writer = _Writer(out, fmt, compressed, columns)
+        except BaseException:
+            run.close(cancel=True)
+            raise
+        records, errors = _run_into(
+            run, writer, _blocks(paths, formats, chunk_size), strict, on_record_error, progress,
+            offsets,
+        )  # fmt: skip
+    finally:
+        if spool is not None:
+            shutil.rmtree(spool, ignore_errors=True)
+    return BatchSummary(records, records - errors, errors, str(out), time.monotonic() - started)
+
+
+def _run_into(
+    run: Engine, writer: _Writer, blocks: Iterator[Block], strict: bool,
+    on_record_error: Callable[[str, str], None] | None, progress: Progress, offsets: list[int],
+) -> tuple[int, int]:  # fmt: skip
+    """Write every chunk in order and commit, or remove the partial output: (records, errors)."""
     records = errors = 0
-    # The engine first: forked workers start before this process opens the output or loads
-    # the libraries that write it.
-    run = _engine(opts, fmt + ".gz" if compressed else fmt, workers, engine, scheduler)
-    try:
-        writer = _Writer(out, fmt, compressed, columns)
-    except BaseException:
-        run.close(cancel=True)
-        raise
     committed = False
+    results = _ordered(run, blocks)
     try:
-        for result in _ordered(run, _blocks(paths, formats, chunk_size)):
+        for result in results:
             if strict and result.n_errors:
                 raise InputFileError(
                     f"{result.errors[0]} (--strict stops at the first bad record)", result.source
@@ -1886,10 +1980,11 @@ def score_files(
         writer.commit()
         committed = True
     finally:
+        results.close()  # the workers have stopped (and written nothing more) when this returns
         progress.finish()
         if not committed:
             writer.abort()
-    return BatchSummary(records, records - errors, errors, str(out), time.monotonic() - started)
+    return records, errors
 
 
 # The SMILES input format registers itself on import (it builds on the names above).
