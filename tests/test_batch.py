@@ -644,6 +644,7 @@ def _both_splitters(
     path: Path, chunk_size: int, monkeypatch: pytest.MonkeyPatch, read_size: int
 ) -> tuple[list[zb.Block], list[tuple[bytes, int]]]:
     monkeypatch.setattr(zb, "_READ_SIZE", read_size)
+    monkeypatch.setattr(zb, "_SCAN_SIZE", read_size)
     plain = list(zb.split_fasta(str(path), "in", 0, chunk_size))
     with path.open("rb") as fh:
         stream = list(zb._split_fasta_stream(fh, None, str(path), "in", 0, chunk_size))
