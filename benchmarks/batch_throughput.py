@@ -22,9 +22,11 @@ Peak memory is reported two ways: the peak RSS of the largest process (its VmHWM
 ``/usr/bin/time -v`` prints as maximum resident set size), and the peak of the summed RSS of the
 whole process tree (main process + workers), sampled every 0.05 s with psutil.
 
-Besides the two files it runs a one-record file (the fixed cost of starting and stopping) and
-reports the steady-state rate: the records the large file adds over the small one, divided by
-the extra time (start-up, warm-up and shutdown cancel out).
+Besides the two files it runs a one-record file (the fixed cost of starting and stopping),
+reports the steady-state rate (the records the large file adds over the small one, divided by
+the extra time: start-up, warm-up and shutdown cancel out), and measures the ceiling for two
+jobs on this machine: the large file cut in two halves, each scored by its own one-job process,
+both started together (no coordination at all; what two cores give this workload).
 
 Run: python benchmarks/batch_throughput.py [--records 200000] [--big 1000000] [--bio-sample 20000]
 Results are recorded in benchmarks/README.md.
@@ -179,8 +181,43 @@ def run_zwitter(fasta: Path, out: Path, jobs: int, records: int) -> dict[str, fl
     }
 
 
+def split_halves(fasta: Path, out_dir: Path) -> tuple[Path, Path]:
+    """The file cut in two at the record boundary nearest its middle."""
+    data = fasta.read_bytes()
+    mid = data.index(b"\n>", len(data) // 2) + 1
+    first, second = out_dir / "half1.fasta", out_dir / "half2.fasta"
+    first.write_bytes(data[:mid])
+    second.write_bytes(data[mid:])
+    return first, second
+
+
+def run_halves(halves: tuple[Path, Path], out_dir: Path) -> float:
+    """Wall time of two independent one-job runs, one per half, started together: what two
+    cores give this workload with no coordination at all (the ceiling for --jobs 2)."""
+    exe = shutil.which("zwitter")
+    base = [exe] if exe else [sys.executable, "-c", "from zwitter.cli import main; main()"]
+    t0 = time.perf_counter()
+    procs = [
+        subprocess.Popen(
+            [*base, "batch", str(h), "-o", str(out_dir / f"half{i}.csv"), "--ph", "7.0",
+             "--ph", "7.4"],
+            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+        )
+        for i, h in enumerate(halves)
+    ]  # fmt: skip
+    codes = [p.wait() for p in procs]
+    if any(codes):
+        raise SystemExit(f"zwitter batch on a half failed: {codes}")
+    return time.perf_counter() - t0
+
+
 def interleaved(
-    fasta: Path, out_dir: Path, records: int, repeat: int, jobs_list: tuple[int, ...] = (1, 2)
+    fasta: Path,
+    out_dir: Path,
+    records: int,
+    repeat: int,
+    jobs_list: tuple[int, ...] = (1, 2),
+    halves: tuple[Path, Path] | None = None,
 ) -> dict[int, dict[str, Any]]:
     """Run each --jobs value ``repeat`` times, alternating, and keep the fastest run of each.
 
@@ -189,12 +226,17 @@ def interleaved(
     cost. Memory is the largest peak seen.
     """
     runs: dict[int, list[dict[str, Any]]] = {j: [] for j in jobs_list}
+    split: list[float] = []
     for _ in range(max(1, repeat)):
         for jobs in jobs_list:
             os.sync()
             runs[jobs].append(run_zwitter(fasta, out_dir / f"scores_j{jobs}.csv", jobs, records))
-    top = {}
-    for jobs, rs in runs.items():
+        if halves is not None:
+            split.append(run_halves(halves, out_dir))
+    top: dict[int, dict[str, Any]] = {}
+    if split:
+        top[0] = {"seconds": min(split), "all_seconds": [round(x, 2) for x in split]}
+    for jobs, rs in runs.items():  # key 0: the two halves run apart
         r = dict(min(rs, key=lambda r: r["seconds"]))
         r["tree_peak_mib"] = max(x["tree_peak_mib"] for x in rs)
         r["maxrss_mib"] = max(x["maxrss_mib"] for x in rs)
@@ -261,14 +303,18 @@ def main() -> None:
           f"--jobs 2 {fixed[2]['seconds']:.2f} s (runs {fixed[1]['all_seconds']}, "
           f"{fixed[2]['all_seconds']})")  # fmt: skip
 
-    results = interleaved(small, work, n, args.repeat)
+    results = interleaved(small, work, n, args.repeat, halves=split_halves(small, work))
+    small_apart = results.pop(0)
     for jobs, r in results.items():
         print(f"zwitter batch --jobs {jobs}: {r['seconds']:.2f} s (runs {r['all_seconds']}), "
               f"{r['records_per_s']:,.0f} records/s, CPU {r['cpu_s']:.1f} s, peak RSS: largest "
               f"process {r['maxrss_mib']:.0f} MiB, tree {r['tree_peak_mib']:.0f} MiB")  # fmt: skip
     same = (work / "scores_j1.csv").read_bytes() == (work / "scores_j2.csv").read_bytes()
     print(f"--jobs 1 and --jobs 2 outputs identical: {same}")
-    print(f"speed-up with 2 jobs: {results[1]['seconds'] / results[2]['seconds']:.2f}x")
+    print(f"speed-up with 2 jobs: {results[1]['seconds'] / results[2]['seconds']:.2f}x; the "
+          f"two halves scored apart at once: {small_apart['seconds']:.2f} s (runs "
+          f"{small_apart['all_seconds']}), {results[1]['seconds'] / small_apart['seconds']:.2f}x "
+          f"one job")  # fmt: skip
 
     bio = run_biopython(small, args.bio_sample)
     rate = bio["records_per_s"]
@@ -285,7 +331,9 @@ def main() -> None:
         print(
             f"generated {args.big:,} records ({size:.0f} MiB) in {time.perf_counter() - t0:.0f} s"
         )
-        large = interleaved(big, work, args.big, max(1, args.repeat - 1))
+        halves = split_halves(big, work)
+        large = interleaved(big, work, args.big, max(1, args.repeat - 1), halves=halves)
+        apart = large.pop(0)
         for jobs, r in large.items():
             small_peak = results[jobs]["tree_peak_mib"]
             print(f"zwitter batch --jobs {jobs} on {args.big:,}: {r['seconds']:.1f} s (runs "
@@ -294,6 +342,12 @@ def main() -> None:
                   f"process {r['maxrss_mib']:.0f} MiB")  # fmt: skip
         print(f"speed-up with 2 jobs on {args.big:,}: "
               f"{large[1]['seconds'] / large[2]['seconds']:.2f}x")  # fmt: skip
+        ceiling = large[1]["seconds"] / apart["seconds"]
+        print(f"the ceiling: the two halves scored by two independent one-job runs at once: "
+              f"{apart['seconds']:.1f} s (runs {apart['all_seconds']}), {ceiling:.2f}x one job; "
+              f"--jobs 2 reaches {apart['seconds'] / large[2]['seconds']:.0%} of it")  # fmt: skip
+        for h in halves:
+            h.unlink()
         # The records between the two files cost the difference of the run times: start-up,
         # warm-up and shutdown cancel out (the steady-state rate of each setting).
         extra = args.big - n
