@@ -858,3 +858,30 @@ def test_a_spooled_chunk_is_appended_whole_without_copy_file_range(
             fh.write(b"tail")
         assert out.read_bytes() == b"head" + data + b"tail"
         assert not Path(chunk.path).exists()
+
+
+@pytest.mark.parametrize("jobs", [1, 2])
+def test_an_interrupted_run_leaves_nothing_behind(
+    jobs: int, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # Ctrl-C while blocks are in flight: the partial output, the spool folder and the workers go.
+    def split(path: str, label: str, index: int, chunk_size: int):
+        blocks = zb.split_fasta(str(PROTEINS), label, index, 2)
+        for i, block in enumerate(blocks):
+            if i == 4:
+                raise KeyboardInterrupt
+            yield block
+
+    fmt = zb.InputFormat("stopping", (".stop",), split, zb.output_columns, lambda head: False)
+    monkeypatch.setitem(zb._FORMATS, "stopping", fmt)
+    src = tmp_path / "in.stop"
+    src.write_text(">a\nMK\n")
+    out_dir = tmp_path / "out"
+    out_dir.mkdir()
+    with pytest.raises(KeyboardInterrupt):
+        zb.score_files(src, out_dir / "s.csv", jobs=jobs)
+    assert list(out_dir.iterdir()) == []
+    res = runner.invoke(app, ["batch", str(src), "-o", str(out_dir / "s.csv"), "--jobs", str(jobs)])
+    assert res.exit_code == 130
+    assert res.stderr == "zwitter: error: interrupted; no output written\n"
+    assert list(out_dir.iterdir()) == []

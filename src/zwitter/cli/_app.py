@@ -23,6 +23,8 @@ app = typer.Typer(
 
 EXIT_BAD_INPUT = 2
 EXIT_FAILURE = 1
+#: 128 + SIGINT, what shells report for a program stopped by Ctrl-C (common practice)
+EXIT_INTERRUPTED = 130
 
 
 def fail(message: str, code: int = EXIT_BAD_INPUT) -> NoReturn:
@@ -40,7 +42,7 @@ def main() -> None:
         sys.exit(EXIT_BAD_INPUT)
     except KeyboardInterrupt:
         sys.stderr.write("zwitter: interrupted\n")
-        sys.exit(130)
+        sys.exit(EXIT_INTERRUPTED)
     except Exception as exc:  # noqa: BLE001 - the last line of defence: one line, exit 1
         if os.environ.get("ZWITTER_DEBUG"):
             raise

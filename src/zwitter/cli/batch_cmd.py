@@ -16,7 +16,7 @@ from typing import Annotated, Any
 import typer
 
 from ..errors import ParameterError, ZwitterError
-from ._app import EXIT_BAD_INPUT, EXIT_FAILURE, app, fail
+from ._app import EXIT_BAD_INPUT, EXIT_FAILURE, EXIT_INTERRUPTED, app, fail
 from ._common import CysMode, IonicOpt, TempOpt, conditions_from, save_plot
 
 #: Same as zwitter.batch.DEFAULT_CHUNK_SIZE (not imported here: the CLI starts without numpy).
@@ -227,6 +227,9 @@ def batch(
         )
     except OSError as exc:  # writing the output, reaching the scheduler
         fail(f"{exc}; no output written", EXIT_FAILURE)
+    except KeyboardInterrupt:
+        # the run has removed its partial output and stopped its workers by now
+        fail("interrupted; no output written", EXIT_INTERRUPTED)
     sys.stderr.write(f"zwitter: {summary.line()}\n")
     if plot is not None or histogram is not None:
         _figures(output, plot, histogram, bounds)
