@@ -885,3 +885,20 @@ def test_an_interrupted_run_leaves_nothing_behind(
     assert res.exit_code == 130
     assert res.stderr == "zwitter: error: interrupted; no output written\n"
     assert list(out_dir.iterdir()) == []
+
+
+def test_blocks_in_flight_deep_only_when_they_travel_light(tmp_path: Path) -> None:
+    # Blocks without bytes and spooled results are small: the engine lets the workers run far
+    # ahead of the oldest block; blocks that carry their bytes (gzip) stay few.
+    gz = tmp_path / "p.fasta.gz"
+    gz.write_bytes(gzip.compress(PROTEINS.read_bytes()))
+    plain = next(zb.split_fasta(str(PROTEINS), "p", 0, 3))
+    packed = next(zb.split_fasta(str(gz), "p", 0, 3))
+    engine = zb.ProcessEngine(zb.make_options(), "csv", 2, method="fork", spool=str(tmp_path))
+    try:
+        engine.submit(plain).result()
+        assert engine.slots == 32
+        engine.submit(packed).result()
+        assert engine.slots == 8
+    finally:
+        engine.close(cancel=False)

@@ -1588,7 +1588,11 @@ class ProcessEngine:
         self.fmt = fmt
         self.spool = spool  # a folder where workers leave encoded chunks (Spooled), or None
         self.workers = max(1, jobs)
-        # results held back to keep the input order (memory stays flat)
+        # Blocks in flight: results wait in submission order, so a worker on a core the host
+        # has taken away holds up the others once the oldest block is its own. Blocks that
+        # travel without bytes and results left in the spool folder are small, so then the
+        # others may run far ahead; blocks with their bytes (gzip, stdin) are bounded closer.
+        self._deep = 16 * self.workers if spool is not None else 4 * self.workers
         self.slots = 4 * self.workers
         self.method = start_method(method)
         self._local: InProcessEngine | None = None
@@ -1635,7 +1639,9 @@ class ProcessEngine:
 
     def submit(self, block: Block) -> _Result:
         if self._started.is_set() or self._local is None:
-            future = self._pool.submit(_pool_task, block.detached(), self.fmt, self.spool)
+            light = block.detached()
+            self.slots = self._deep if not light.data else 4 * self.workers
+            future = self._pool.submit(_pool_task, light, self.fmt, self.spool)
             self._in_hand = [f for f in self._in_hand if not f.done()] + [future]
             return future
         return self._local.submit(block)
@@ -1660,7 +1666,7 @@ def _ordered(engine: Engine, blocks: Iterator[Block]) -> Generator[ChunkResult, 
     try:
         for block in blocks:
             pending.append(engine.submit(block))
-            if len(pending) >= engine.slots:
+            while len(pending) >= engine.slots:  # slots may shrink (ProcessEngine)
                 yield pending.popleft().result()
         while pending:
             yield pending.popleft().result()
