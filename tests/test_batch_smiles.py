@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import json
 import math
 import warnings
 
@@ -115,3 +116,24 @@ def test_mixing_fasta_and_smiles_inputs_is_refused(tmp_path, test_data_dir) -> N
     )
     assert res.exit_code == 2
     assert not (tmp_path / "o.csv").exists()
+
+
+def test_structures_come_in_smaller_chunks_by_default(tmp_path) -> None:
+    # A structure costs about a millisecond, a sequence a few microseconds: without a chunk size
+    # a SMILES file is cut into blocks of 250 records, so that several workers share even a
+    # few thousand molecules; a FASTA file into blocks of 10,000.
+    from zwitter import batch as zb
+
+    path = tmp_path / "many.smi"
+    path.write_text("".join(f"{'C' * (1 + i % 7)}C(=O)O acid{i}\n" for i in range(600)))
+    formats = zb._formats([str(path)], "auto")
+    assert formats[0].name == "smiles" and formats[0].chunk_size == 250
+    sizes = [len(json.loads(b.data)) for b in zb._blocks([str(path)], formats, None)]
+    assert sizes == [250, 250, 100]
+    fasta = zb._formats([str(tmp_path / "x.fasta")], "auto")[0]
+    assert fasta.chunk_size == zb.DEFAULT_CHUNK_SIZE == 10_000
+    out_one, out_two = tmp_path / "one.csv", tmp_path / "two.csv"
+    zb.score_files(path, out_one, jobs=1)
+    zb.score_files(path, out_two, jobs=2)
+    assert out_one.read_bytes() == out_two.read_bytes()
+    assert len(read(out_two)) == 600

@@ -25,9 +25,14 @@ import numpy as np
 from .batch import BatchOptions, Block, Columns, InputFormat, charge_column, register_input_format
 from .errors import ZwitterError
 
-__all__ = ["smiles_format", "smiles_columns", "SMILES_SUFFIXES"]
+__all__ = ["smiles_format", "smiles_columns", "SMILES_SUFFIXES", "SMILES_CHUNK_SIZE"]
 
 SMILES_SUFFIXES = (".smi", ".smiles", ".sdf", ".sd", ".csv", ".tsv")
+#: Records per block by default: a structure costs about 1 ms (RDKit parsing, group search,
+#: microstates; benchmarks/README.md), so a block is a quarter of a second of work, and even a
+#: few thousand molecules keep every worker busy (10,000 per block, the sequence default, made
+#: one block of RDKit's 5,000-molecule NCI sample: one worker did it all).
+SMILES_CHUNK_SIZE = 250
 
 
 def smiles_columns(options: BatchOptions) -> list[tuple[str, str]]:
@@ -47,7 +52,9 @@ def smiles_format(column: str | None = None, id_column: str | None = None) -> In
     def split(path: str, label: str, input_index: int, chunk_size: int) -> Iterator[Block]:
         return _split(path, label, input_index, chunk_size, column, id_column)
 
-    return InputFormat("smiles", SMILES_SUFFIXES, split, smiles_columns, _sniff)
+    return InputFormat(
+        "smiles", SMILES_SUFFIXES, split, smiles_columns, _sniff, chunk_size=SMILES_CHUNK_SIZE
+    )
 
 
 def _sniff(head: bytes) -> bool:

@@ -19,9 +19,6 @@ from ..errors import ParameterError, ZwitterError
 from ._app import EXIT_BAD_INPUT, EXIT_FAILURE, EXIT_INTERRUPTED, app, fail
 from ._common import CysMode, IonicOpt, TempOpt, conditions_from, save_plot
 
-#: Same as zwitter.batch.DEFAULT_CHUNK_SIZE (not imported here: the CLI starts without numpy).
-_DEFAULT_CHUNK_SIZE = 10_000
-
 
 class EngineName(str, enum.Enum):
     local = "local"
@@ -67,8 +64,14 @@ def batch(
         ),
     ] = CysMode.free,
     chunk_size: Annotated[
-        int, typer.Option("--chunk-size", min=1, help="Records per chunk (memory grows with it).")
-    ] = _DEFAULT_CHUNK_SIZE,
+        int | None,
+        typer.Option(
+            "--chunk-size",
+            min=1,
+            help="Records per chunk (default: 10,000 sequences, 250 structures; memory grows "
+            "with it).",
+        ),
+    ] = None,
     jobs: Annotated[
         int,
         typer.Option(
