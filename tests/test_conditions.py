@@ -19,6 +19,7 @@ from zwitter.conditions import (
     bjerrum_length,
     davies_log_gamma,
     davies_pka_shift,
+    davies_species_terms,
     debye_huckel_a,
     debye_kappa,
     ionization_enthalpy,
@@ -177,6 +178,42 @@ def test_sign_of_the_davies_shift(za: int, ionic: float, temperature: float) -> 
 def test_davies_log_gamma_grows_with_charge_squared() -> None:
     assert davies_log_gamma(2, 0.1) == pytest.approx(4 * davies_log_gamma(1, 0.1))
     assert davies_log_gamma(0, 0.1) == 0.0
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    za=st.integers(min_value=-4, max_value=3),
+    ionic=st.floats(min_value=1e-4, max_value=0.5),
+    temperature=st.floats(min_value=0.0, max_value=100.0),
+    scale=st.sampled_from(["activity", "concentration"]),
+)
+def test_species_terms_give_the_step_formula_for_one_step(
+    za: int, ionic: float, temperature: float, scale: str
+) -> None:
+    # Exact identity: a step HA(za) -> A(za - 1) between two whole forms moves by
+    # [a za^2 - 0] - [a (za - 1)^2 - h] = log10 g(A) - log10 g(HA) (+ log10 g(H+)), the
+    # per-step formula of davies_pka_shift (and of ionic_strength.csv's header).
+    a, h = davies_species_terms(ionic, temperature, scale)
+    assert a == pytest.approx(-davies_log_gamma(1, ionic, temperature), abs=1e-12)
+    assert h == (davies_log_gamma(1, ionic, temperature) if scale == "concentration" else 0.0)
+    shift = a * za**2 - a * (za - 1) ** 2 + h
+    assert shift == pytest.approx(davies_pka_shift(za, ionic, temperature, scale), abs=1e-12)
+
+
+def test_species_terms_reject_an_unknown_ph_scale() -> None:
+    with pytest.raises(ConditionsError, match="ph_scale"):
+        davies_species_terms(0.1, 25.0, "nbs")
+
+
+def test_sequences_keep_the_per_site_correction() -> None:
+    # Proteins and peptides from sequences: independent sites, each shifted by the charges of its
+    # own two forms (unchanged by the whole-form treatment of structures).
+    cond = Conditions(ionic_strength=0.15)
+    m = zwitter.from_sequence("ACDEHKRY", conditions=cond)
+    expected = cond.apply(m.reference_sites)
+    assert np.array_equal(m.sites.pkas, expected.pkas, equal_nan=True)
+    dt, di = cond.pka_shifts(m.reference_sites)
+    assert np.any(np.abs(di) > 0.05)
 
 
 # -- validation -----------------------------------------------------------------------------------

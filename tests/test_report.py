@@ -435,3 +435,14 @@ def test_report_of_a_long_sequence_argument(tmp_path: Path) -> None:
     res = CliRunner().invoke(app, ["report", seq, "-o", str(out)])
     assert res.exit_code == 0, res.output
     assert out.stat().st_size > 10_000
+
+
+def test_salt_on_whole_forms_is_said_beside_the_corrections() -> None:
+    # A structure takes the ionic strength on its whole forms: the per-site table shows no salt
+    # shift and says where the salt went; a sequence shows its per-site Davies shifts.
+    salt = zwitter.Conditions(ionic_strength=0.1)
+    glycine = report.molecule_report(zwitter.from_smiles("NCC(=O)O", conditions=salt))
+    assert "The ionic strength acts on whole forms" in glycine
+    peptide = report.molecule_report(zwitter.from_sequence("DKHKE", conditions=salt))
+    assert "pKa corrections for these conditions" in peptide
+    assert "The ionic strength acts on whole forms" not in peptide

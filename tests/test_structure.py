@@ -27,6 +27,7 @@ from hypothesis import strategies as st
 from rdkit import Chem, RDConfig, rdBase
 
 import zwitter
+from zwitter.conditions import davies_pka_shift
 from zwitter.errors import (
     InputFileError,
     ParameterError,
@@ -35,6 +36,7 @@ from zwitter.errors import (
     ZwitterError,
     ZwitterWarning,
 )
+from zwitter.microstates import Microstates
 from zwitter.structure import (
     StructureMolecule,
     from_smiles,
@@ -706,6 +708,267 @@ def test_large_molecules_fall_back_to_mean_field_with_a_warning() -> None:
     assert -18.0 <= m.charge(7.0) <= 0.0
     d = m.dominant(7.0)
     assert Chem.GetFormalCharge(Chem.MolFromSmiles(d.smiles)) == d.charge
+
+
+# -- ionic strength: activity coefficients of whole forms ------------------------------------------
+def _davies_a(ionic: float, temperature: float = 25.0) -> float:
+    """A F(I) written out: Davies 1962, Ion Association (Butterworths), log10 g = -A z^2 F(I),
+    F(I) = sqrt(I)/(1 + sqrt(I)) - 0.3 I; A from Alberty's fit of the ln-basis constant,
+    alpha = 1.10708 - 1.54508e-3 T + 5.95584e-6 T^2 (Clarke & Glew 1980, J. Chem. Soc. Faraday
+    Trans. 1 76:1911, as used by Alberty 2001, Arch. Biochem. Biophys. 389:94; from memory),
+    divided by ln 10: the source zwitter.conditions.debye_huckel_a names."""
+    t = temperature + 273.15
+    a = (1.10708 - 1.54508e-3 * t + 5.95584e-6 * t * t) / math.log(10.0)
+    s = math.sqrt(ionic)
+    return a * (s / (1.0 + s) - 0.3 * ionic)
+
+
+def _step_shift(acid_charge: float, ionic: float, scale: str, temperature: float = 25.0) -> float:
+    """Davies shift of a step HA(z) = A(z - 1) + H+: log10 g(A) - log10 g(HA) (mixed constant,
+    glass-electrode pH), plus log10 g(H+) for pH = -log10 [H+] (concentration constant)."""
+    af = _davies_a(ionic, temperature)
+    shift = -af * ((acid_charge - 1.0) ** 2 - acid_charge**2)
+    return shift - af if scale == "concentration" else shift
+
+
+def _salt(ionic: float, scale: str = "activity", temperature: float = 25.0) -> zwitter.Conditions:
+    return zwitter.Conditions(temperature=temperature, ionic_strength=ionic, ph_scale=scale)
+
+
+class _PerSite:
+    """The per-site Davies treatment (what structures had before): a duck-typed conditions object
+    whose apply() moves every site step by the charges of that site's own two forms."""
+
+    def __init__(self, conditions: zwitter.Conditions) -> None:
+        self.conditions = conditions
+
+    def apply(self, sites: zwitter.SiteSet) -> zwitter.SiteSet:
+        out: zwitter.SiteSet = self.conditions.apply(sites)
+        return out
+
+
+@pytest.mark.parametrize("scale", ["activity", "concentration"])
+@pytest.mark.parametrize(("ionic", "temperature"), [(0.1, 25.0), (0.15, 25.0), (0.15, 37.0)])
+@pytest.mark.parametrize(
+    ("smiles", "acid_charge"),
+    [("CC(=O)O", 0), ("CN", 1)],  # acetic acid HA/A-, methylamine BH+/B
+    ids=["acetic acid", "methylamine"],
+)
+def test_one_site_shift_is_the_analytical_davies_value(
+    smiles: str, acid_charge: int, ionic: float, temperature: float, scale: str
+) -> None:
+    # One site: the two forms of the site are the two forms of the molecule, so the
+    # whole-form and the per-site corrections are the same thing (the exact identity tested).
+    plain = from_smiles(smiles, conditions=zwitter.Conditions(temperature=temperature))
+    salty = from_smiles(smiles, conditions=_salt(ionic, scale, temperature))
+    per_site = from_smiles(smiles, conditions=_PerSite(_salt(ionic, scale, temperature)))
+    expected = _step_shift(acid_charge, ionic, scale, temperature)
+    assert salty.pkas()[0] - plain.pkas()[0] == pytest.approx(expected, abs=1e-9)
+    assert per_site.pkas()[0] - plain.pkas()[0] == pytest.approx(expected, abs=1e-9)
+    # the site itself is not moved by the salt (no double counting)
+    assert salty.sites.pkas[0, 0] == pytest.approx(plain.sites.pkas[0, 0], abs=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("ionic", "scale", "expected"),
+    [
+        # data/reference/ionic_strength.csv, Davies rows (Davies 1962; A = 0.5108 at 25 C):
+        # acetate 4.756 at I = 0 -> 4.649 (mixed) and 4.541 (concentration) at 0.1 M,
+        # 4.636 and 4.517 at 0.15 M
+        (0.1, "activity", 4.649 - 4.756),
+        (0.1, "concentration", 4.541 - 4.756),
+        (0.15, "activity", 4.636 - 4.756),
+        (0.15, "concentration", 4.517 - 4.756),
+    ],
+)
+def test_acetic_acid_shift_matches_the_worked_davies_rows(
+    ionic: float, scale: str, expected: float
+) -> None:
+    shift = from_smiles("CC(=O)O", conditions=_salt(ionic, scale)).pkas()[0]
+    assert shift - from_smiles("CC(=O)O").pkas()[0] == pytest.approx(expected, abs=0.002)
+
+
+@pytest.mark.parametrize("scale", ["activity", "concentration"])
+@pytest.mark.parametrize("ionic", [0.1, 0.15])
+def test_glycine_macroscopic_steps_shift_by_the_charges_of_the_whole_forms(
+    ionic: float, scale: str
+) -> None:
+    # Glycine: cation (+1) -> zwitterion (0) -> anion (-1). Each macroscopic step moves by the
+    # Davies shift of its two whole forms (exact here: one species, the activity term depends on
+    # the number of protons lost only).
+    plain = from_smiles("NCC(=O)O").pkas()
+    salty = from_smiles("NCC(=O)O", conditions=_salt(ionic, scale)).pkas()
+    expected = [_step_shift(1, ionic, scale), _step_shift(0, ionic, scale)]
+    for got, before, want in zip(salty, plain, expected):
+        assert got - before == pytest.approx(want, abs=1e-9)
+    # The per-site treatment moves the carboxyl step as a 0/-1 step and the amine step as a +1/0
+    # step: it gets both macroscopic shifts wrong, by about 2 A F(I) (the test can fail).
+    per_site = from_smiles("NCC(=O)O", conditions=_PerSite(_salt(ionic, scale))).pkas()
+    for got, before, want in zip(per_site, plain, expected):
+        assert abs((got - before) - want) > 1.5 * _davies_a(ionic)
+
+
+@pytest.mark.parametrize("scale", ["activity", "concentration"])
+def test_edta_last_step_moves_as_a_three_minus_to_four_minus_step(scale: str) -> None:
+    # HY3- -> Y4- (EDTA's upper amine step): Davies -7 A F (mixed) or -8 A F (concentration),
+    # about -0.86 at 0.1 M on the concentration scale; per site (an ammonium, +1/0) it would be
+    # +A F or 0.
+    plain = from_smiles(EDTA).pkas()
+    salty = from_smiles(EDTA, conditions=_salt(0.1, scale)).pkas()
+    expected = _step_shift(-3, 0.1, scale)
+    assert salty[-1] - plain[-1] == pytest.approx(expected, abs=1e-9)
+    if scale == "concentration":
+        assert expected == pytest.approx(-0.86, abs=0.01)
+    per_site = from_smiles(EDTA, conditions=_PerSite(_salt(0.1, scale))).pkas()
+    assert abs((per_site[-1] - plain[-1]) - expected) > 0.7
+
+
+@pytest.mark.parametrize("scale", ["activity", "concentration"])
+def test_phosphoric_acid_shifts_match_the_buffer_table(scale: str) -> None:
+    # zwitter.buffers treats phosphate by the charges of the two forms of each macroscopic step
+    # (0/-1, -1/-2, -2/-3; data/buffers.csv): the structure drawn as SMILES moves alike.
+    from zwitter.buffers import buffer_pkas
+
+    cond = _salt(0.1, scale)
+    buffer_shift = np.subtract(
+        buffer_pkas("phosphate", cond), buffer_pkas("phosphate", zwitter.Conditions())
+    )
+    smiles_shift = np.subtract(
+        from_smiles("OP(=O)(O)O", conditions=cond).pkas(), from_smiles("OP(=O)(O)O").pkas()
+    )
+    assert len(smiles_shift) == 3
+    assert np.allclose(smiles_shift, buffer_shift, atol=0.01)
+    assert np.allclose(buffer_shift, [_step_shift(z, 0.1, scale) for z in (0, -1, -2)], atol=1e-9)
+
+
+def test_zero_ionic_strength_gives_exactly_the_old_numbers() -> None:
+    grid = np.linspace(0.0, 14.0, 57)
+    for smiles in ("NCC(=O)O", EDTA, "C[N+](C)(C)CC(=O)O", "OP(=O)(O)OP(=O)(O)O"):
+        old = from_smiles(smiles)
+        new = from_smiles(smiles, conditions=zwitter.Conditions(ionic_strength=0.0))
+        assert new.activity == (0.0, 0.0)
+        assert new.pkas() == old.pkas()
+        assert np.array_equal(new.charge(grid), old.charge(grid))
+        assert np.array_equal(new.model.g, old.model.g)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", ZwitterWarning)  # betaine: no pI, either way
+            assert new.isoelectric_point() == old.isoelectric_point()
+        assert new.dominant(7.4) == old.dominant(7.4)
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.filter_too_much])
+@given(
+    smiles=st.sampled_from(PROTONATION_CASES + [EDTA]),
+    choices=st.lists(st.integers(0, 2), min_size=12, max_size=12),
+    ph=st.floats(-2.0, 16.0),
+    scale=st.sampled_from(["activity", "concentration"]),
+)
+def test_with_salt_populations_sum_to_one_and_the_drawn_protonation_does_not_matter(
+    smiles: str, choices: list[int], ph: float, scale: str
+) -> None:
+    other = _reprotonate(smiles, choices)
+    assume(other is not None)
+    cond = _salt(0.15, scale)
+    a, b = _quiet(smiles, conditions=cond), _quiet(other, conditions=cond)
+    assert a.model.populations(ph).sum() == pytest.approx(1.0, abs=1e-9)
+    assert a.species(ph, min_population=0.0).population.sum() == pytest.approx(1.0, abs=1e-6)
+    assert np.allclose(b.pkas(), a.pkas(), atol=1e-9)
+    assert b.charge(ph) == pytest.approx(a.charge(ph), abs=1e-9)
+    assert b.dominant(7.4).smiles == a.dominant(7.4).smiles
+    # every reader of the populations agrees: the mean charge is the population-weighted charge
+    ms = a.model
+    pops = ms.populations(ph)
+    assert float(pops @ ms.state_charge(ms.states)) == pytest.approx(a.charge(ph), abs=1e-9)
+    lost = a.site_table(ph).fraction_protonated
+    assert ((lost >= -1e-12) & (lost <= 1 + 1e-12)).all()
+
+
+def test_salt_keeps_the_pi_where_the_charge_vanishes() -> None:
+    m = from_smiles("N[C@@H](Cc1c[nH]cn1)C(=O)O", conditions=_salt(0.15))  # histidine
+    pi = m.isoelectric_point()
+    assert pi is not None and abs(m.charge(pi)) < 1e-4
+
+
+def test_fragments_kept_together_are_separate_species() -> None:
+    # Acetic acid and glycine in one SMILES (keep_fragments): two molecules in solution, each
+    # with the activity coefficient of its own charge, so the charges add exactly. One species
+    # of the summed charge would not (the test can fail: checked below).
+    cond = _salt(0.1)
+    both = _quiet("CC(=O)O.NCC(=O)O", keep_fragments=True, conditions=cond)
+    grid = np.linspace(0.0, 14.0, 29)
+    alone = from_smiles("CC(=O)O", conditions=cond).charge(grid) + from_smiles(
+        "NCC(=O)O", conditions=cond
+    ).charge(grid)
+    assert np.allclose(both.charge(grid), alone, atol=1e-9)
+    ms = both.model
+    one = Microstates(
+        ms.pkas, ms.nsteps, ms.charges, ms.pairs, activity=ms.activity
+    )  # both fragments as one species
+    assert np.max(np.abs(one.charge(grid) - alone)) > 0.05
+
+
+def test_a_polyelectrolyte_takes_the_salt_per_site() -> None:
+    # 18 carboxylic acids (2**18 microstates, mean field): forms of up to 18 negative charges,
+    # far beyond what the Davies equation is meant for (at 0.1 M a form of charge -18 would get
+    # log10 g = -0.107 * 324 = -35): the salt is taken per site, as for a sequence, and says so.
+    big = "OC(=O)" + "CC(C(=O)O)" * 17 + "C"
+    with pytest.warns(ZwitterWarning, match="mean-field"):
+        plain = from_smiles(big)
+    with pytest.warns(ZwitterWarning) as caught:
+        m = from_smiles(big, conditions=_salt(0.1))
+    texts = [str(w.message) for w in caught]
+    assert any("more than 4 charges: the ionic strength is taken per site" in t for t in texts)
+    assert any("mean-field" in t for t in texts)
+    assert not m.salt_on_whole_forms and m.activity == (0.0, 0.0) and not m.model.exact
+    # per site, a carboxyl step (0/-1) moves by -A F(I) on the glass-electrode scale
+    # (davies_pka_shift): the polyacid loses a little more of its protons, not 14 more
+    shift = float(davies_pka_shift(0, 0.1))
+    assert shift == pytest.approx(-0.107, abs=0.002)  # A = 0.5108 at 25 C, F(0.1) = 0.2103
+    assert np.asarray(m.sites.pkas[:18, 0]) == pytest.approx(
+        np.asarray(plain.sites.pkas[:18, 0]) + shift, abs=1e-9
+    )
+    assert plain.charge(4.0) - 1.0 < m.charge(4.0) < plain.charge(4.0)
+    assert len(m.pkas()) == 18
+
+
+@pytest.mark.parametrize(
+    ("smiles", "whole"),
+    [
+        ("OC(=O)CN(CC(=O)O)CCN(CC(=O)O)CC(=O)O", True),  # EDTA: forms from +2 to -4
+        ("OP(=O)(O)O", True),  # phosphoric acid: 0 to -3
+        ("OC(=O)CN(CC(=O)O)CCN(CC(=O)O)CCN(CC(=O)O)CC(=O)O", False),  # DTPA: +3 to -5
+    ],
+)
+def test_the_charge_limit_of_whole_form_salt(smiles: str, whole: bool) -> None:
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ZwitterWarning)
+        m = from_smiles(smiles, conditions=_salt(0.1))
+    assert m.salt_on_whole_forms is whole
+    assert (m.activity[0] > 0) is whole
+    corrections = m.condition_corrections()
+    assert corrections is not None
+    assert bool((corrections["shift_ionic_strength"] == 0).all()) is whole
+
+
+def test_explain_and_site_table_say_how_the_ionic_strength_enters() -> None:
+    m = from_smiles("NCC(=O)O", conditions=_salt(0.1, "concentration", 37.0))
+    rows = {r["step"]: r for r in m.explain().rows}
+    assert "Davies 1962" in rows["ionic strength"]["source"]
+    assert "whole form" in rows["ionic strength"]["source"]
+    assert "-log10 [H+]" in rows["ionic strength"]["source"]
+    step = "ionic-strength shift of each macroscopic step (acid/base charge)"
+    # +1/0 on the concentration scale: 0 exactly; 0/-1: -2 A F (37 C)
+    assert (
+        rows[step]["value"] == f"+1/0 +0.00; 0/-1 {_step_shift(0, 0.1, 'concentration', 37):+.2f}"
+    )
+    assert rows["conditions"]["source"].startswith("conditions: temperature (van 't Hoff")
+    assert "ionic strength" in str(m.explain())
+    table = m.site_table(7.0)
+    assert table.corrections.str.contains("acts on whole forms, not on this site").all()
+    # the site pKa carries the temperature only
+    warm = from_smiles("NCC(=O)O", conditions=zwitter.Conditions(temperature=37.0))
+    assert list(table.pka) == list(warm.site_table(7.0).pka)
+    assert "ionic strength" not in warm.site_table(7.0).corrections.str.cat()
 
 
 # -- peptides drawn as SMILES --------------------------------------------------------------------

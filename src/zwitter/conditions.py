@@ -14,6 +14,9 @@ to the solution at hand in two steps, per site type and per deprotonation step:
    the pH is the one a calibrated glass electrode reads, -log10 a(H+), and the constant is the
    "mixed" one, pKm = pKa - A F(I) (1 - 2 z_a); with ``ph_scale="concentration"`` the pH is
    -log10 [H+] and pKc = pKa - 2 A F(I) (1 - z_a), where F(I) = sqrt(I)/(1 + sqrt(I)) - 0.3 I.
+   This per-site form is the one for sequences (independent sites). Structures (coupled sites,
+   :mod:`zwitter.microstates`) take it per whole species instead: each form's activity coefficient
+   follows from its net charge (:func:`davies_species_terms`), and their sites get only step 1.
 
 For proteins an optional smeared-charge term (``electrostatics="sphere"``) adds the work of
 charging a sphere of the molecule's size in a Debye-Hueckel ion atmosphere (Linderstrom-Lang 1924;
@@ -57,6 +60,7 @@ __all__ = [
     "debye_huckel_a",
     "davies_log_gamma",
     "davies_pka_shift",
+    "davies_species_terms",
     "van_t_hoff",
     "pkw",
     "water_permittivity",
@@ -149,6 +153,40 @@ def davies_pka_shift(
     elif ph_scale != "activity":
         raise ConditionsError("ph_scale", f"one of {', '.join(PH_SCALES)}", ph_scale)
     return float(delta) if np.ndim(delta) == 0 else delta
+
+
+def davies_species_terms(
+    ionic_strength: float,
+    temperature: float = REFERENCE_TEMPERATURE,
+    ph_scale: str = "activity",
+) -> tuple[float, float]:
+    """(a, h): the whole-species activity correction of a coupled-site (microstate) model.
+
+    ``a`` = A F(I): a species of net charge z has log10 g = -a z**2 (Davies); ``h`` is
+    log10 g(H+) when pH means -log10 [H+] (``ph_scale="concentration"``), 0 on the glass-electrode
+    scale. A form that has lost L protons and carries net charge z then has the log10 weight
+    L pH - G + a z**2 - h L, where G is its free energy at I = 0 (see the derivation below).
+
+    >>> a, h = davies_species_terms(0.1)
+    >>> round(a, 4), h
+    (0.1074, 0.0)
+    >>> round(davies_species_terms(0.1, ph_scale="concentration")[1], 4)
+    -0.1074
+    """
+    # Derivation (the mixed and concentration constants of Albert & Serjeant, The Determination of
+    # Ionization Constants, Chapman & Hall 1984, chapter on activity corrections; from memory):
+    # a form s that lost L protons from the fully protonated form R is in equilibrium R = s + L H+
+    # with the thermodynamic constant K_s = a(s) a(H+)**L / a(R), log10 K_s = -G(s). So
+    #     [s] / [R] = K_s a(H+)**-L g(R) / g(s),
+    # and g(R) is common to every form: it cancels when the populations are normalised.
+    # Glass-electrode pH (-log10 a(H+)): log10 [s] = L pH - G(s) - log10 g(z_s) + const.
+    # Concentration pH (-log10 [H+], a(H+) = g(H+) [H+]): a further - L log10 g(H+).
+    # With Davies, -log10 g(z) = a z**2. For one site this is davies_pka_shift exactly.
+    if ph_scale not in PH_SCALES:
+        raise ConditionsError("ph_scale", f"one of {', '.join(PH_SCALES)}", ph_scale)
+    a = float(debye_huckel_a(temperature) * _davies_f(ionic_strength))
+    h = -a if ph_scale == "concentration" else 0.0
+    return a, h
 
 
 def van_t_hoff(

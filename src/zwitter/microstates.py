@@ -28,6 +28,19 @@ pKa values are pKa_L = log10 Z_(L-1) - log10 Z_L with Z_L = sum over microstates
 lost of 10**(-G). Every pH-dependent quantity follows from the level populations, because within
 one level the relative weights of the microstates do not depend on pH.
 
+At an ionic strength above zero the activity coefficients belong to whole species, not to sites:
+a microstate of net charge z has log10 g(z) = -a z**2 (Davies, a = A F(I);
+:func:`zwitter.conditions.davies_species_terms` derives the weights), so
+
+    G(s) -> G(s) + log10 g(z(s)) + h L(s)
+
+with h = log10 g(H+) when pH means -log10 [H+] (0 for a glass-electrode pH). Disconnected
+fragments kept together are separate species, each with its own net charge. One species: the term
+depends on L only, so it moves each level's log10 Z and leaves the microstates of a level in the
+same proportions. Written out, -a z**2 = -a (Q + sum_i q_i)**2 is a uniform pair coupling of
+-2a q_i q_k between every two sites of a species plus terms of each site alone, which is how the
+mean-field answer takes it.
+
 Exact enumeration is used up to :data:`MAX_EXACT_STATES` microstates (2**16). Beyond that the
 mean-field answer replaces it (each site feels the average charge of the others, solved
 self-consistently at every pH) and a :class:`~zwitter.errors.ZwitterWarning` says so.
@@ -200,6 +213,14 @@ class Microstates:
         Exact enumeration up to this many microstates; mean field beyond (with a warning).
     where
         Name of the molecule for the warning.
+    activity, proton_log_gamma
+        Whole-species activity correction (0, 0: none, I = 0): a species of net charge z has
+        log10 g = -``activity`` z**2, and every proton lost adds ``proton_log_gamma`` (log10 g(H+)
+        for a pH on the concentration scale) to the free energy
+        (:func:`zwitter.conditions.davies_species_terms` gives both).
+    species, species_charges
+        The species (disconnected fragment) of each site, (K,) indices 0..F-1, and the permanent
+        charge of each species, (F,). None: the sites and ``fixed_charge`` form one species.
 
     Examples
     --------
@@ -209,6 +230,13 @@ class Microstates:
     >>> ms = Microstates([[4.0], [4.0]], [1, 1], [0, 0])
     >>> [round(float(x), 3) for x in ms.macroscopic_pkas()]
     [3.699, 4.301]
+
+    With a whole-species activity correction a = 0.1074 (Davies at I = 0.1 M, 25 C) the second
+    step, 1- to 2-, falls by 3a (log10 g(2-) - log10 g(1-)) and the first, 0 to 1-, by a.
+
+    >>> salt = Microstates([[4.0], [4.0]], [1, 1], [0, 0], activity=0.1074)
+    >>> [round(float(x), 3) for x in salt.macroscopic_pkas()]
+    [3.592, 3.979]
     """
 
     def __init__(
@@ -223,6 +251,10 @@ class Microstates:
         fixed_charge: float = 0.0,
         max_states: int = MAX_EXACT_STATES,
         where: str = "",
+        activity: float = 0.0,
+        proton_log_gamma: float = 0.0,
+        species: Sequence[int] | IntArray | None = None,
+        species_charges: Sequence[float] | FloatArray | None = None,
     ) -> None:
         p = np.asarray(pkas, dtype=np.float64)
         k = int(p.shape[0]) if p.ndim == 2 else 0
@@ -263,6 +295,7 @@ class Microstates:
         self.site_g = cum + state_energy
         self.total_steps = int(self.nsteps.sum())
         self.max_charge = self.fixed_charge + float(self.charges.sum())
+        self._setup_activity(activity, proton_log_gamma, species, species_charges)
         n_states = 1
         for s in self.nsteps:
             n_states *= int(s) + 1
@@ -280,6 +313,57 @@ class Microstates:
                 ZwitterWarning,
                 stacklevel=3,
             )
+
+    def _setup_activity(
+        self,
+        activity: float,
+        proton_log_gamma: float,
+        species: Sequence[int] | IntArray | None,
+        species_charges: Sequence[float] | FloatArray | None,
+    ) -> None:
+        """Store the whole-species activity terms and their mean-field form."""
+        #: a of log10 g(z) = -a z**2, and log10 g(H+) per proton lost (0, 0 at I = 0)
+        self.activity = float(activity)
+        self.proton_log_gamma = float(proton_log_gamma)
+        #: site free energies the mean field uses: site_g plus each site's own activity terms
+        self._mf_site_g: FloatArray = self.site_g
+        #: (K, K) activity coupling of two sites of one species (-2a; zero across species)
+        self._act_pairs: FloatArray | None = None
+        #: (K, F) one-hot species membership and (F,) permanent charge of each species
+        self._species = np.ones((self.k, 1))
+        self._species_q = np.array([self.fixed_charge])
+        if species is not None:
+            idx = np.asarray(species, dtype=np.int64).reshape(self.k)
+            n = int(idx.max()) + 1 if self.k else 0
+            q = np.asarray(
+                species_charges if species_charges is not None else np.zeros(n), dtype=np.float64
+            ).reshape(-1)
+            if q.size < n or (self.k and int(idx.min()) < 0):
+                raise ValueError("species: indices 0..F-1 for each site, species_charges of size F")
+            self._species = (idx[:, None] == np.arange(q.size)[None, :]).astype(np.float64)
+            self._species_q = q
+        if not (self.activity or self.proton_log_gamma) or not self.k:
+            return
+        a = self.activity
+        j = np.arange(self.site_g.shape[1], dtype=np.float64)
+        own_q = self._species @ self._species_q  # (K,) permanent charge of each site's species
+        q = self.state_charges
+        # -a (Q + sum q)**2 = -a Q**2 - a sum (q_i**2 + 2 Q q_i) - 2a sum_{i<k} q_i q_k
+        self._mf_site_g = (
+            self.site_g
+            - a * (q * q + 2.0 * own_q[:, None] * q)
+            + (self.proton_log_gamma * j[None, :])
+        )
+        same = self._species @ self._species.T
+        np.fill_diagonal(same, 0.0)
+        self._act_pairs = -2.0 * a * same
+
+    def _activity_g(self, states: IntArray) -> FloatArray:
+        """log10 g of every species of each microstate plus log10 g(H+) per proton lost: (M,)."""
+        q = self.charges[None, :] - states  # (M, K)
+        z = self._species_q[None, :] + q @ self._species  # (M, F) net charge of each species
+        out = -self.activity * (z * z).sum(axis=1) + self.proton_log_gamma * states.sum(axis=1)
+        return np.asarray(out, dtype=np.float64)
 
     @property
     def _log_z(self) -> FloatArray:
@@ -311,6 +395,9 @@ class Microstates:
             if iu.size:
                 q = self.charges[None, :] - self.states  # (M, K)
                 self.g = self.g + _pair_energy(q[:, iu], q[:, ju], w, iu, ju).sum(axis=1)
+        if self._act_pairs is not None:
+            # whole-species activity coefficients (module docstring): zero cost at I = 0
+            self.g = self.g + self._activity_g(self.states)
         self.lost = self.states.sum(axis=1)  # L(s)
         levels = self.total_steps + 1
         b = -self.g
@@ -414,18 +501,21 @@ class Microstates:
         j = np.arange(width, dtype=np.float64)
         q_state = self.state_charges  # (K, S+1)
         valid = j[None, :] <= self.nsteps[:, None]
-        base = j[None, None, :] * ph[:, None, None] - self.site_g[None, :, :]
+        base = j[None, None, :] * ph[:, None, None] - self._mf_site_g[None, :, :]
         base = np.where(valid[None], base, -np.inf)
         w = self.pairs
         same_pos = w.cation[None, :, None, :]
         same_neg = w.anion[None, :, None, :]
         opp = w.opposite[None, :, None, :]
+        act = self._act_pairs
 
         def probs_for(qbar: FloatArray) -> FloatArray:
             qa = q_state[None, :, :, None]
             qq = qa * qbar[:, None, None, :]  # (M, K, S+1, K)
             e = np.where(qq > 0, qq * np.where(qa > 0, same_pos, same_neg), qq * opp)
             logw = base - e.sum(-1)
+            if act is not None:  # whole-species activity: -2a q_i <q_k> within a species
+                logw = logw - q_state[None, :, :] * (qbar @ act.T)[:, :, None]
             logw = logw - logw.max(axis=-1, keepdims=True)
             wt = np.exp(logw * _LN10)
             return np.asarray(wt / wt.sum(axis=-1, keepdims=True))
@@ -456,11 +546,12 @@ class Microstates:
         p = self._mf_probs_grid(grid)  # (M, K, S+1)
         qbar = (p * self.state_charges[None]).sum(-1)  # (M, K)
         w = self.pairs
+        act_field = qbar @ self._act_pairs.T if self._act_pairs is not None else None  # (M, K)
         eff = []
         for i in range(self.k):
             others = np.array([kk for kk in range(self.k) if kk != i], dtype=np.int64)
             for step in range(1, int(self.nsteps[i]) + 1):
-                pk = self.site_g[i, step] - self.site_g[i, step - 1]
+                pk = self._mf_site_g[i, step] - self._mf_site_g[i, step - 1]
                 q_from, q_to = self.state_charges[i, step - 1], self.state_charges[i, step]
                 shift = np.zeros(grid.size)
                 if others.size:
@@ -469,6 +560,8 @@ class Microstates:
                     e_to = _pair_energy(np.full_like(qb, q_to), qb, w, ii, others).sum(1)
                     e_from = _pair_energy(np.full_like(qb, q_from), qb, w, ii, others).sum(1)
                     shift = e_to - e_from
+                if act_field is not None:
+                    shift = shift + (q_to - q_from) * act_field[:, i]
                 diff = pk + shift - grid
                 idx = np.flatnonzero(np.diff(np.sign(diff)) != 0)
                 if idx.size:

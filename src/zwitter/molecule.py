@@ -68,7 +68,7 @@ class Molecule:
         self.reference_sites = sites
         self.conditions = conditions
         if conditions is not None:
-            sites = conditions.apply(sites)
+            sites = self._apply_conditions(sites, conditions)
         self.sites = sites
         self.name = name
         self.kind = kind
@@ -85,6 +85,24 @@ class Molecule:
     def __repr__(self) -> str:
         label = self.name if len(self.name) <= 40 else self.name[:37] + "..."
         return f"<Molecule {label!r}: {self.sites.n_types} site types, scale {self.scale!r}>"
+
+    def condition_corrections(self) -> pd.DataFrame | None:
+        """The corrections the conditions make to each site step (reference pKa, shifts, the
+        pKa used, sources), or None without conditions that can say."""
+        cond = self.conditions
+        if cond is None or not hasattr(cond, "corrections"):
+            return None
+        frame: pd.DataFrame = cond.corrections(self.reference_sites)
+        return frame
+
+    def _apply_conditions(self, sites: SiteSet, conditions: Any) -> SiteSet:
+        """The sites with pKa values at ``conditions``: here every correction per site.
+
+        A hook for readers whose solver takes part of the correction itself (structures: the
+        ionic strength acts on whole forms, see :class:`zwitter.structure.StructureMolecule`).
+        """
+        out: SiteSet = conditions.apply(sites)
+        return out
 
     # -- numbers --------------------------------------------------------------------------------
     def charge(self, ph: npt.ArrayLike) -> Any:

@@ -561,8 +561,10 @@ def _corrections_table(molecule: Molecule) -> str:
     if cond is None or getattr(cond, "is_reference", True) or not hasattr(cond, "corrections"):
         return ""
     try:
-        frame = cond.corrections(molecule.reference_sites)
+        frame = molecule.condition_corrections()
     except (ZwitterError, ValueError, KeyError):
+        return ""
+    if frame is None:
         return ""
     cols: list[Column] = [
         ("site", "site", None),
@@ -573,8 +575,17 @@ def _corrections_table(molecule: Molecule) -> str:
         ("pka", "pKa used", 2),
         ("enthalpy_source", "ionization enthalpy source", None),
     ]
-    return "<h3>pKa corrections for these conditions</h3>" + _table(
-        _records(frame), cols, table_id="corrections", wide=True
+    note = ""
+    if getattr(molecule, "salt_on_whole_forms", False):
+        note = (
+            "<p>The ionic strength acts on whole forms, not on these site values: each form "
+            "(microstate) takes the Davies activity coefficient of its net charge, and the "
+            "macroscopic pKa values and populations above include it.</p>"
+        )
+    return (
+        "<h3>pKa corrections for these conditions</h3>"
+        + note
+        + _table(_records(frame), cols, table_id="corrections", wide=True)
     )
 
 

@@ -28,6 +28,12 @@ The path from a structure to its charge:
    falls with the number of bonds between them (two aminocarboxylate nitrogens, as in EDTA, repel
    more: row ``coupling_aminocarboxylate``); microstates are enumerated exactly (up to 2**16),
    giving populations, the dominant form as a SMILES, macroscopic pKa values and the pI.
+6. **Conditions** (``conditions=``): the temperature moves each site's pKa (van 't Hoff); an ionic
+   strength acts on whole forms, not on sites: each microstate's weight takes the Davies activity
+   coefficient of its net charge (:func:`zwitter.conditions.davies_species_terms`), so glycine's
+   zwitterion-to-anion step moves as a 0/-1 step, EDTA's last step as a 3-/4- step. A molecule
+   whose forms may carry more than :data:`WHOLE_FORM_MAX_CHARGE` charges takes it per site, as
+   sequences do (Davies is meant for small ions).
 
 Peptides drawn as SMILES: the residues of a peptide (alpha-amine and alpha-carboxyl of the termini,
 the ionizable side chains of a residue whose alpha carbon carries an amide bond) have their own rows
@@ -44,6 +50,7 @@ amines (iminodiacetic acid, EDDA) come out 0.6-1.0 too basic.
 from __future__ import annotations
 
 import csv
+import dataclasses
 import gzip
 import io
 import math
@@ -59,6 +66,7 @@ import numpy as np
 import numpy.typing as npt
 
 from . import equilibrium as eq
+from .conditions import Conditions, davies_species_terms
 from .equilibrium import DominantForm
 from .errors import InputFileError, ParameterError, ScaleError, StructureError, ZwitterWarning
 from .microstates import Coupling, Microstates, PairTable, coupling_matrix, default_coupling
@@ -957,6 +965,47 @@ def _site_set(an: _Analysis, notes: Sequence[str]) -> SiteSet:
     return SiteSet.from_sites(items, notes)
 
 
+#: The largest net charge (either sign) a molecule's forms may carry for the ionic strength to act
+#: on whole forms. The Davies equation is an extension of Debye-Hueckel for small ions (it is
+#: tabulated and tested for charges up to about 4: EDTA's Y4-, ATP4-); a form carrying many more
+#: charges is a polyelectrolyte (a peptide or a polyacid drawn as SMILES), whose activity is far
+#: from -A z**2 F(I) (at 0.1 M a form of charge -16 would get log10 g = -27). Such molecules take
+#: the salt per site, as sequences do (common practice for proteins; the limit is a rule of thumb).
+WHOLE_FORM_MAX_CHARGE = 4
+
+
+def _salt_on_whole_forms(sites: SiteSet, conditions: Any) -> bool:
+    """Whether the ionic strength of ``conditions`` acts on whole forms (else per site)."""
+    if not isinstance(conditions, Conditions) or conditions.ionic_strength <= 0:
+        return False
+    low, high = sites.charge_bounds()
+    return bool(max(abs(float(low)), abs(float(high))) <= WHOLE_FORM_MAX_CHARGE + 1e-9)
+
+
+def _activity_terms(conditions: Any) -> tuple[float, float]:
+    """(a, h) of :func:`zwitter.conditions.davies_species_terms` for ``conditions``."""
+    return davies_species_terms(
+        conditions.ionic_strength, conditions.temperature, conditions.ph_scale
+    )
+
+
+def _species_of_sites(an: _Analysis) -> tuple[list[int] | None, list[float] | None]:
+    """Species (disconnected fragment) of each site and the permanent charge of each species.
+
+    (None, None) for one fragment: the sites and all permanent charges form one species.
+    """
+    frags = _rdkit().GetMolFrags(an.mol)
+    if len(frags) < 2:
+        return None, None
+    frag_of = {a: f for f, atoms in enumerate(frags) for a in atoms}
+    titrating = {a for s in an.sites for a in s.atoms}
+    charges = [0.0] * len(frags)
+    for atom, q in an.charged:
+        if atom not in titrating:
+            charges[frag_of[atom]] += q
+    return [frag_of[s.atoms[0]] for s in an.sites], charges
+
+
 def _coupling_inputs(an: _Analysis, coupling: Coupling) -> tuple[PairTable, PairTable]:
     """Site-site (K x K) and site-permanent-charge (K x P) coupling tables."""
     k = len(an.sites)
@@ -1060,7 +1109,9 @@ class StructureMolecule(Molecule):
 
     Use :func:`from_smiles` to build one. Attributes beyond :class:`~zwitter.molecule.Molecule`:
     ``mol`` (the neutral reference RDKit Mol), ``reference_smiles``, ``input_smiles``,
-    ``removed_fragments`` and ``structure_sites`` (one :class:`StructureSite` per titratable site).
+    ``removed_fragments``, ``structure_sites`` (one :class:`StructureSite` per titratable site) and
+    ``activity`` ((a, h) of the whole-form activity correction at the conditions' ionic strength;
+    (0, 0) at I = 0).
     """
 
     def __init__(
@@ -1090,8 +1141,20 @@ class StructureMolecule(Molecule):
                 "the smeared-charge (sphere) electrostatics is meant for proteins: "
                 "it is not applied to structures (site coupling is)",
             ]
+        sites = _site_set(analysis, notes)
+        #: whether the ionic strength acts on whole forms (the microstate model) or, for a
+        #: molecule whose forms may carry more than WHOLE_FORM_MAX_CHARGE charges, per site
+        self.salt_on_whole_forms = _salt_on_whole_forms(sites, conditions)
+        if isinstance(conditions, Conditions) and conditions.ionic_strength > 0:
+            if not self.salt_on_whole_forms:
+                notes = [
+                    *notes,
+                    f"its forms may carry more than {WHOLE_FORM_MAX_CHARGE} charges: the ionic "
+                    "strength is taken per site, as for sequences (Davies is meant for small "
+                    "ions)",
+                ]
         super().__init__(
-            _site_set(analysis, notes),
+            sites,
             name=name or input_smiles,
             kind="smiles",
             scale="structure (ionizable_groups.csv)",
@@ -1104,6 +1167,10 @@ class StructureMolecule(Molecule):
         k = len(analysis.sites)
         pk = np.asarray(self.sites.pkas[:k], dtype=np.float64) if k else np.zeros((0, 0))
         pairs, field = _coupling_inputs(analysis, self.coupling)
+        #: (a, h) of the whole-species activity correction (conditions.davies_species_terms);
+        #: (0, 0) at I = 0, without a Conditions object, or with the salt taken per site
+        self.activity = _activity_terms(conditions) if self.salt_on_whole_forms else (0.0, 0.0)
+        species, species_charges = _species_of_sites(analysis) if self.activity[0] else (None, None)
         #: the coupled-site solver (:class:`zwitter.microstates.Microstates`)
         self.model = Microstates(
             pk,
@@ -1114,12 +1181,39 @@ class StructureMolecule(Molecule):
             field=field,
             fixed_charge=float(analysis.permanent_total),
             where=self.name,
+            activity=self.activity[0],
+            proton_log_gamma=self.activity[1],
+            species=species,
+            species_charges=species_charges,
         )
         self._ref_lost = np.array([s.ref_lost for s in analysis.sites], dtype=np.int64)
 
     def __repr__(self) -> str:
         label = self.name if len(self.name) <= 40 else self.name[:37] + "..."
         return f"<StructureMolecule {label!r}: {len(self.structure_sites)} sites>"
+
+    def _apply_conditions(self, sites: SiteSet, conditions: Any) -> SiteSet:
+        """Sites at ``conditions``: van 't Hoff per site; the ionic strength is left to the forms.
+
+        Activity coefficients belong to whole species: the microstate model gives each form the
+        one of its net charge (:func:`zwitter.conditions.davies_species_terms`), so the per-site
+        Davies shift would count the salt twice.
+        """
+        if _salt_on_whole_forms(sites, conditions):
+            conditions = dataclasses.replace(conditions, ionic_strength=0.0)
+        out: SiteSet = conditions.apply(sites)
+        return out
+
+    def condition_corrections(self) -> pd.DataFrame | None:
+        """The corrections the conditions make to the site pKa values (one row per step); with
+        the ionic strength on whole forms, its per-site shift is 0 (explain() gives the shift of
+        each macroscopic step)."""
+        cond = self.conditions
+        if not isinstance(cond, Conditions) or not self.salt_on_whole_forms:
+            return super().condition_corrections()
+        frame = dataclasses.replace(cond, ionic_strength=0.0).corrections(self.reference_sites)
+        frame["shift_ionic_strength"] = 0.0
+        return frame
 
     @property
     def reference_smiles(self) -> str:
@@ -1389,13 +1483,45 @@ class StructureMolecule(Molecule):
         return out
 
     # -- tables ---------------------------------------------------------------------------------
+    def _ionic_strength_note(self) -> tuple[str, str] | None:
+        """(value, source) saying how the ionic strength enters; None at I = 0."""
+        a, h = self.activity
+        if not a:
+            return None
+        cond = self.conditions
+        scale = (
+            f"pH as -log10 [H+]: log10 g(H+) = {h:.4f} per proton lost"
+            if h
+            else "pH as a glass electrode reads it (activity scale)"
+        )
+        return (
+            f"{cond.ionic_strength:g} M (log10 g = -{a:.4f} z^2 for a form of net charge z)",
+            "Davies 1962, Ion Association (Butterworths), on the net charge of each whole form "
+            "(microstate; each fragment its own species), not per site as for sequences; A at "
+            f"{cond.temperature:g} C from zwitter.conditions.debye_huckel_a; {scale}",
+        )
+
     def site_table(self, ph: float = 7.0) -> pd.DataFrame:
-        """One row per site: atoms, group, base pKa, corrections with sources, pKa, state at pH."""
+        """One row per site: atoms, group, base pKa, corrections with sources, pKa, state at pH.
+
+        ``pka`` is the intrinsic site value at the temperature of the conditions; an ionic
+        strength acts on whole forms (their net charge), not on a site's pKa, and the
+        ``corrections`` text says so.
+        """
         import pandas as pd
 
         _check_ph(ph, "site_table")
         ms = self.model
         lost = ms.site_lost(float(ph)) if ms.k else np.zeros(0)
+        salt = self._ionic_strength_note()
+        extra = (
+            [
+                f"ionic strength {salt[0]}: acts on whole forms, not on this site's pKa "
+                "[Davies 1962, Ion Association (Butterworths); explain() gives the details]"
+            ]
+            if salt is not None
+            else []
+        )
         rows = []
         for i, s in enumerate(self.structure_sites):
             n = int(ms.nsteps[i])
@@ -1409,7 +1535,7 @@ class StructureMolecule(Molecule):
                     "base_pka": "; ".join(f"{p:.2f}" for p in s.base),
                     "base_source": s.group.source,
                     "corrections": "; ".join(
-                        f"{c.detail} = {c.value:+.2f} [{c.source}]" for c in s.corrections
+                        [f"{c.detail} = {c.value:+.2f} [{c.source}]" for c in s.corrections] + extra
                     ),
                     "correction_total": float(sum(c.value for c in s.corrections)),
                     "pka": "; ".join(f"{p:.2f}" for p in final),
@@ -1433,6 +1559,23 @@ class StructureMolecule(Molecule):
                 n = int(ms.nsteps[i])
                 data[f"fraction_protonated:{s.label}"] = (n - lost[:, i]) / n
         return pd.DataFrame(data)
+
+    def _level_shifts(self) -> list[tuple[float, float]]:
+        """(acid-form charge, pKa shift) of each macroscopic step from the ionic strength.
+
+        Exact for one species: the activity term depends on the number of protons lost only, so
+        step L moves by log10 g(z - 1) - log10 g(z) + h. Empty for several fragments (each has its
+        own charge, so a level has no single charge).
+        """
+        a, h = self.activity
+        ms = self.model
+        if not a or ms._species.shape[1] != 1:
+            return []
+        out = []
+        for lost in range(ms.total_steps):
+            z = ms.max_charge - lost
+            out.append((z, a * (z * z - (z - 1.0) ** 2) + h))
+        return out
 
     def _couplings(self, threshold: float = 0.05) -> list[tuple[int, int, str, float]]:
         """(site i, site j, pair kind, w) for every pair that interacts by more than threshold."""
@@ -1464,6 +1607,12 @@ class StructureMolecule(Molecule):
             lines.append(f"  note: {note}")
         if not self.structure_sites:
             lines.append("  no ionizable group found")
+        conditions_source = (
+            "conditions: temperature (van 't Hoff, per site); the ionic strength acts on whole "
+            "forms (row 'ionic strength')"
+            if isinstance(self.conditions, Conditions)
+            else "conditions (temperature, ionic strength)"
+        )
         for i, s in enumerate(self.structure_sites):
             n = len(s.base)
             final = [float(x) for x in self.sites.pkas[i, :n]]
@@ -1498,7 +1647,7 @@ class StructureMolecule(Molecule):
                         "group": s.group.key,
                         "step": "conditions",
                         "value": "; ".join(f"{b - a:+.2f}" for a, b in zip(shifted, final)),
-                        "source": "conditions (temperature, ionic strength)",
+                        "source": conditions_source,
                     }
                 )
                 lines.append(
@@ -1528,6 +1677,32 @@ class StructureMolecule(Molecule):
                 }
             )
             lines.append(f"  coupling {a.label} <-> {b.label}: {w:.2f} ({kind} charges)")
+        salt = self._ionic_strength_note()
+        if salt is not None:
+            rows.append(
+                {
+                    "site": "molecule",
+                    "group": "",
+                    "step": "ionic strength",
+                    "value": salt[0],
+                    "source": salt[1],
+                }
+            )
+            lines.append(f"  ionic strength {salt[0]}: on whole forms, not per site")
+            steps = self._level_shifts()
+            if steps:
+                text = "; ".join(f"{_signed(z)}/{_signed(z - 1)} {d:+.2f}" for z, d in steps)
+                rows.append(
+                    {
+                        "site": "molecule",
+                        "group": "",
+                        "step": "ionic-strength shift of each macroscopic step (acid/base charge)",
+                        "value": text,
+                        "source": "log10 g(base) - log10 g(acid) (+ log10 g(H+) for pH as "
+                        "-log10 [H+]), Davies on the net charges of the two forms",
+                    }
+                )
+                lines.append(f"    macroscopic steps (acid/base charge): {text}")
         macro = self.pkas()
         if macro:
             text = "; ".join(f"{p:.2f}" for p in macro)
@@ -1566,9 +1741,11 @@ def from_smiles(
     smiles_or_mol
         SMILES text or an RDKit ``Mol`` (copied, never modified).
     conditions
-        An object whose ``apply(sites)`` returns the SiteSet with pKa values at other conditions
-        (temperature, ionic strength); applied to the intrinsic site pKa values before the
-        microstates are solved. None keeps 25 deg C, I -> 0.
+        A :class:`zwitter.Conditions`: the temperature moves the intrinsic site pKa values; an
+        ionic strength gives every form (microstate) the Davies activity coefficient of its net
+        charge, on the pH scale of ``conditions.ph_scale``. Any other object whose
+        ``apply(sites)`` returns the SiteSet at other conditions is applied to the site pKa values.
+        None keeps 25 deg C, I -> 0.
     keep_fragments
         False (default): keep the largest organic fragment and report the others in
         ``removed_fragments``. True: keep every fragment (they do not interact).
