@@ -639,21 +639,25 @@ class Block:
         if self.data or span is None or span.length == 0:
             return self
         try:
-            fd = os.open(span.path, os.O_RDONLY)
+            handle = open(span.path, "rb", buffering=0)  # closed below (finally)
         except OSError as exc:
             raise InputFileError(f"cannot open again: {exc.strerror or exc}", self.source) from None
         try:
-            same = _identity(os.fstat(fd)) == span.identity
-            data = os.pread(fd, span.length, span.offset) if same else b""
-            while same and 0 < len(data) < span.length:  # pread may return less than asked
-                more = os.pread(fd, span.length - len(data), span.offset + len(data))
-                data += more
-                same = bool(more)
+            same = _identity(os.fstat(handle.fileno())) == span.identity
+            data = b""
+            if same:
+                handle.seek(span.offset)
+                data = handle.read(span.length)
+                while 0 < len(data) < span.length:  # a raw read may return less than asked
+                    more = handle.read(span.length - len(data))
+                    if not more:
+                        break
+                    data += more
         except OSError as exc:
             text = f"read error in line {self.first_line}: {exc.strerror or exc}"
             raise InputFileError(text, self.source) from None
         finally:
-            os.close(fd)
+            handle.close()
         if not same or len(data) != span.length:
             raise InputFileError(
                 "the file changed while it was being scored (its size or modification time is "
@@ -900,8 +904,10 @@ def _split_plain_fasta(
     block_start, block_line = 0, 1  # where the next block begins, and its line number
     header_seen = prefix_text = False
 
+    where = os.path.abspath(path)  # workers may run in another folder (forkserver, spawn)
+
     def block(end: int) -> Block:
-        span = FileSpan(path, block_start, end - block_start, identity)
+        span = FileSpan(where, block_start, end - block_start, identity)
         return Block(label, input_index, b"", block_line, end, _score_fasta_block, span)
 
     while True:
