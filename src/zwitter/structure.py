@@ -22,6 +22,8 @@ The path from a structure to its charge:
    (``site_table()``, ``explain()``). Repeated polar substituents of one site saturate: ranked by
    size, the k-th Taft term counts f**(k - 1), f = 0.83 from Taft's sigma* of ClCH2, Cl2CH, Cl3C
    (lfer_reactions.csv row ``taft_saturation``; three arms on one amine N, three Cl on one carbon).
+   A class of sites may carry an intrinsic shift (lfer_reactions.csv kind ``shift``: row
+   ``aminocarboxylate_nitrogen``, the tertiary N of an iminodiacetate unit as in EDTA and NTA).
    Substituents that are themselves ionizable enter in their neutral form; their charge acts
    through the coupling of step 5, never twice.
 5. **Couple the sites** (:mod:`zwitter.microstates`): charged sites interact with a strength that
@@ -44,7 +46,7 @@ A non-natural residue gives whatever generic groups it contains.
 Known limits (documented in data/reference/README.md with measured errors): no tautomer
 normalisation (a group is recognised in the tautomer drawn), ortho substituents use para constants,
 no geometry (cis/trans diacids look alike; CDTA is drawn like EDTA), secondary aminocarboxylate
-amines (iminodiacetic acid, EDDA) come out 0.6-1.0 too basic.
+amines can come out too basic (EDDA's upper step by 0.6 at I = 0.1 M, where its table was measured).
 """
 
 from __future__ import annotations
@@ -327,9 +329,9 @@ def reactions() -> dict[str, Reaction]:
     """Hammett and Taft reaction classes by key."""
     out = {}
     for r in packaged_csv(_LFER_FILE, ("key", "kind", "rho", "d0", "attenuation", "para_constant")):
-        if r["kind"] not in ("hammett", "taft", "coupling", "saturation"):
+        if r["kind"] not in ("hammett", "taft", "coupling", "saturation", "shift"):
             raise ScaleError(f"unknown kind {r['kind']!r}", r.path, r.line, "kind")
-        if r["kind"] in ("coupling", "saturation"):
+        if r["kind"] in ("coupling", "saturation", "shift"):
             continue
         out[r["key"]] = Reaction(
             r["key"],
@@ -358,6 +360,23 @@ def taft_saturation() -> tuple[float, str]:
                 )
             return f, _expand_source(r["source"], _SOURCE_ABBREVIATIONS)
     return 1.0, ""
+
+
+@cache
+def intrinsic_shifts() -> tuple[tuple[str, float, str, str], ...]:
+    """(key, shift, SMARTS, source) of the ``shift`` rows of ``lfer_reactions.csv``.
+
+    A shift row adds its rho (pK units) to the intrinsic pKa of every site whose titrating atom is
+    the first atom of a match of its SMARTS (row ``aminocarboxylate_nitrogen``).
+    """
+    out = []
+    for r in packaged_csv(_LFER_FILE, ("key", "kind", "rho")):
+        if r["kind"] == "shift":
+            if not r["smarts"]:
+                raise ScaleError("a shift row needs a smarts", r.path, r.line, "smarts")
+            source = _expand_source(r["source"], _SOURCE_ABBREVIATIONS)
+            out.append((r["key"], r.number("rho"), r["smarts"], source))
+    return tuple(out)
 
 
 @cache
@@ -607,7 +626,7 @@ def _elements(mol: Any) -> frozenset[int]:
 class Correction:
     """One term added to a site's base pKa, with the reasoning and its source."""
 
-    kind: str  # "hammett" or "taft"
+    kind: str  # "hammett", "taft" or "shift"
     substituent: str
     atom: int
     detail: str
@@ -913,6 +932,10 @@ def _analyse(mol: Any, elements: frozenset[int] | None = None) -> _Analysis:
     if dm is not None:
         dm[dm > 1e6] = np.inf  # disconnected fragments
     subs = _SubstituentIndex(mol, elements) if needs_lfer else None
+    shifts = {
+        row: {m[0] for m in mol.GetSubstructMatches(_class_query(row[2]))}
+        for row in (intrinsic_shifts() if raw else ())
+    }
     sites = []
     for g, atoms, match in raw:
         corrections: list[Correction] = []
@@ -926,6 +949,12 @@ def _analyse(mol: Any, elements: frozenset[int] | None = None) -> _Analysis:
                     corrections = _hammett(mol, mset, ipso, reaction, subs)
             elif dm is not None:
                 corrections = _taft(mol, dm, mset, atoms[0], reaction, subs)
+        for (key, shift, _, source), members in shifts.items():
+            if atoms[0] in members:
+                # An intrinsic shift of a class of sites (lfer_reactions.csv, kind shift; row
+                # aminocarboxylate_nitrogen is fitted on EDTA and NTA at I = 0.1 M).
+                detail = f"site of class {key}: intrinsic shift {shift:+g}"
+                corrections.append(Correction("shift", key, atoms[0], detail, shift, source))
         ref_charge = sum(mol.GetAtomWithIdx(a).GetFormalCharge() for a in atoms)
         ref_lost = g.charge - ref_charge
         symbol = mol.GetAtomWithIdx(atoms[0]).GetSymbol()
@@ -1039,7 +1068,8 @@ def _coupling_inputs(an: _Analysis, coupling: Coupling) -> tuple[PairTable, Pair
     if coupling.aminocarboxylate != 1.0 and coupling.aminocarboxylate_smarts:
         # Two ammonium N that each carry a carboxylate arm (EDTA-like chelators) repel more than
         # two plain ammoniums at the same bond distance (lfer_reactions.csv row
-        # coupling_aminocarboxylate, fitted on EDTA; data/reference/README.md gives the reasoning).
+        # coupling_aminocarboxylate, fitted on EDTA and NTA at I = 0.1 M; data/reference/README.md
+        # gives the reasoning).
         cations = [i for i, s in enumerate(an.sites) if s.group.charge > 0]
         if len(cations) > 1:
             query = _class_query(coupling.aminocarboxylate_smarts)
