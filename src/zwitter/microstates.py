@@ -378,6 +378,15 @@ class Microstates:
     # -- exact ----------------------------------------------------------------------------------
     def _enumerate(self) -> None:
         k = self.k
+        if k == 0 and self._act_pairs is None:
+            # No site (half of a typical compound file): one form, one level, nothing to sum.
+            self.states = np.zeros((1, 0), dtype=np.int64)
+            self.g = np.zeros(1)
+            self.lost = np.zeros(1, dtype=np.int64)
+            self._exact_log_z = np.zeros(1)
+            self._within = np.ones(1)
+            self._site_lost = np.zeros((1, 0))
+            return
         if k == 0:
             self.states = np.zeros((1, 0), dtype=np.int64)
             self.g = np.zeros(1)
@@ -416,6 +425,8 @@ class Microstates:
     def level_populations(self, ph: npt.ArrayLike) -> FloatArray:
         """(..., T + 1) population of each number of protons lost at each pH."""
         h = np.asarray(ph, dtype=np.float64)[..., None]
+        if self.total_steps == 0:  # nothing titrates: one level, whatever the pH
+            return np.ones(h.shape)
         levels = np.arange(self.total_steps + 1, dtype=np.float64)
         logp = levels * h + self._log_z
         logp = logp - logp.max(axis=-1, keepdims=True)
@@ -427,6 +438,8 @@ class Microstates:
         """Average net charge at each pH (same shape as ``ph``)."""
         if not self.exact:
             return np.asarray(self.max_charge - self._mf_site_lost(ph).sum(axis=-1))
+        if self.total_steps == 0:
+            return np.full(np.shape(ph), self.max_charge)
         pops = self.level_populations(ph)
         lost = pops @ np.arange(self.total_steps + 1, dtype=np.float64)
         return np.asarray(self.max_charge - lost)
