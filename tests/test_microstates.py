@@ -157,13 +157,19 @@ def test_permanent_charge_shifts_a_neighbouring_acid() -> None:
 
 
 # -- mean field ----------------------------------------------------------------------------------
-def test_mean_field_beyond_the_limit_warns_and_stays_close_to_exact() -> None:
+def _ten_coupled_sites() -> tuple[Any, list[int], Any]:
+    """(pKa values, charges, pair table) of ten sites 3 to 39 bonds apart (invented)."""
     rng = np.random.default_rng(7)
     k = 10
     pkas = rng.uniform(3, 11, k)
     charges = [i % 2 for i in range(k)]
     d = np.abs(np.subtract.outer(np.arange(k), np.arange(k))) * 4.0 + 3.0
-    pairs = coupling_matrix(d, np.ones((k, k)), default_coupling())
+    return pkas, charges, coupling_matrix(d, np.ones((k, k)), default_coupling())
+
+
+def test_mean_field_beyond_the_limit_warns_and_stays_close_to_exact() -> None:
+    pkas, charges, pairs = _ten_coupled_sites()
+    k = len(charges)
     exact = Microstates(pkas[:, None], [1] * k, charges, pairs)
     assert exact.exact
     with pytest.warns(ZwitterWarning, match="mean-field"):
@@ -262,12 +268,8 @@ def test_mean_field_takes_the_activity_too() -> None:
         assert mf.macroscopic_pkas()[0] == pytest.approx(4.0 - DAVIES_01 + h, abs=1e-9)
         assert np.allclose(mf.charge(grid), exact.charge(grid), atol=1e-9)
     # Ten coupled sites (as in the mean-field test above), with the salt: close to exact.
-    rng = np.random.default_rng(7)
-    k = 10
-    pkas = rng.uniform(3, 11, k)
-    charges = [i % 2 for i in range(k)]
-    d = np.abs(np.subtract.outer(np.arange(k), np.arange(k))) * 4.0 + 3.0
-    pairs = coupling_matrix(d, np.ones((k, k)), default_coupling())
+    pkas, charges, pairs = _ten_coupled_sites()
+    k = len(charges)
     exact = Microstates(pkas[:, None], [1] * k, charges, pairs, activity=DAVIES_01)
     with pytest.warns(ZwitterWarning, match="mean-field"):
         mf = Microstates(
