@@ -149,12 +149,12 @@ def test_pi_marker_sits_where_the_charge_crosses_zero(seq: str) -> None:
 
 def test_pi_marker_matches_biopython(test_data_dir: Path) -> None:
     # tests/data/biopython_scale.csv holds Biopython's own pK values (see that file's header).
-    bio_ip = pytest.importorskip("Bio.SeqUtils.IsoelectricPoint")
+    protparam = pytest.importorskip("Bio.SeqUtils.ProtParam")
     scale = zwitter.load_scale_file(test_data_dir / "biopython_scale.csv")
     seq = "MKWVTFISLLFLFSSAYSRGVFRRDTHKSEIAHRFKDLGE"
     fig = plots.charge_plot(zwitter.from_sequence(seq, scale=scale))
     ((x, _),) = line(fig, "pI:0").get_xydata()
-    assert x == pytest.approx(bio_ip.IsoelectricPoint(seq).pi(), abs=0.01)
+    assert x == pytest.approx(protparam.ProteinAnalysis(seq).isoelectric_point(), abs=0.01)
 
 
 def test_several_molecules_on_one_plot() -> None:
