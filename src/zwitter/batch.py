@@ -776,15 +776,6 @@ def _read(stream: IO[bytes], path: str, line: Callable[[], int]) -> bytes:
 
 
 # -- FASTA --------------------------------------------------------------------------------------
-def _header_starts(data: bytes | bytearray, start: int = 0) -> npt.NDArray[np.int64]:
-    """Positions >= ``start`` of every '>' that begins a line (after \\n, \\r, or at 0)."""
-    arr = np.frombuffer(data, dtype=np.uint8)
-    gt = np.flatnonzero(arr[start:] == ord(">")) + start
-    prev = arr[np.maximum(gt - 1, 0)]
-    heads: npt.NDArray[np.int64] = gt[(gt == 0) | (prev == ord("\n")) | (prev == ord("\r"))]
-    return heads
-
-
 def _count_newlines(data: bytes) -> int:
     """Line breaks in ``data`` (a vectorised count: about four times faster than bytes.count)."""
     return int(np.count_nonzero(np.frombuffer(data, dtype=np.uint8) == ord("\n")))
@@ -977,7 +968,7 @@ def parse_fasta_block(block: Block) -> RecordBatch:
     data = block.data
     if b"\r" in data and b"\n" not in data:
         data = data.replace(b"\r", b"\n")  # old Mac line ends: same lines, one convention
-    heads = _header_starts(data)
+    heads = _line_starts(np.frombuffer(data, dtype=np.uint8), ord(">"), True)
     newlines = np.flatnonzero(np.frombuffer(data, dtype=np.uint8) == ord("\n"))
     lines = (block.first_line + np.searchsorted(newlines, heads)).tolist()
     out = RecordBatch([], [], [], [], [])
@@ -1580,8 +1571,8 @@ class ProcessEngine:
     Blocks of a plain input file go to the workers without their bytes (:meth:`Block.detached`):
     each worker reads its block from the file itself, so only small messages and the encoded
     results cross the pipes, and this process stays light (cutting blocks, collecting results,
-    writing) and leaves the cores to the workers. A worker gets a new block while it has fewer
-    than two in hand.
+    writing) and leaves the cores to the workers. Workers take blocks from one queue as they
+    finish; ``slots`` bounds how many are in flight.
 
     With the ``fork`` start method (see :func:`start_method`) the workers are ready at once.
     Otherwise they take about half a second to start (the forkserver imports numpy, zwitter and

@@ -310,6 +310,8 @@ def isoelectric_point(
 
 
 #: Spacing of the pH grid on which the root search starts (isoelectric_point, shared pKa values).
+#: A tuning choice, not a published value: 0.25, 0.5 and 1.0 took 14.7, 13.8 and 14.1 ms for a
+#: 10,000-sequence chunk (2026-12-02), the same within noise; the roots do not depend on it.
 _GRID_STEP = 0.5
 
 
